@@ -1,0 +1,148 @@
+"""The electroweak theory at tree level: e+e- -> gamma*/Z -> f fbar and e+e- -> Z H.
+
+Input schemes (card key `parameters.scheme`):
+
+- ``"fermi"`` (default): G_F, m_W, m_Z are inputs; sin^2 theta_W = 1 - m_W^2/m_Z^2 and
+  alpha = sqrt(2) G_F m_W^2 sin^2 theta_W / pi (tree-level relations).
+- ``"thomson"``: alpha(0), m_W, m_Z are inputs; sin^2 theta_W = 1 - m_W^2/m_Z^2.
+- ``"zpole"``: alpha(m_Z) and the effective leptonic sin^2 theta_eff are inputs, with m_Z; this
+  reproduces the measured Z-pole asymmetries best.
+
+The Z propagator carries a fixed width in the s channel, 1/(s - m_Z^2 + i m_Z Gamma_Z), and none
+in the t channel. Fermion masses enter the kinematics but are neglected in |M|^2 (corrections of
+order m_f^2/s: below 1% for b quarks at the Z pole).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..constants import ALPHA_0, ALPHA_MZ, G_FERMI, SW2_EFFECTIVE
+from ..particles import species
+from .registry import ColourFlow, Model, Param, ProcessSpec
+
+SCHEMES = ("fermi", "thomson", "zpole")
+
+
+def _chiral(name: str, sw2: float) -> tuple[float, float, float]:
+    """(Q, g_L, g_R) of a fermion: g_L = T3 - Q sin^2, g_R = -Q sin^2 (particle state)."""
+    sp = species(name)
+    q = sp.charge
+    return q, sp.t3 - q * sw2, -q * sw2
+
+
+def _amplitudes(x, qq, gl_e, gr_e, gl_f, gr_f, par, width: bool):
+    """Reduced helicity amplitudes f_ij(x) = e^2 [Q_e Q_f / x + g_i g_j / (sw2 cw2 (x - mZ^2 + i mZ GZ))]."""
+    e2 = 4.0 * math.pi * par["alpha"]
+    sw2 = par["sw2"]
+    mz = par["m_Z"]
+    gz = par["width_Z"] if width else 0.0
+    prop = 1.0 / (sw2 * (1.0 - sw2) * (x - mz * mz + 1j * mz * gz))
+    pho = qq / x
+    return tuple(e2 * (pho + a * b * prop) for a, b in ((gl_e, gl_f), (gr_e, gr_f), (gl_e, gr_f), (gr_e, gl_f)))
+
+
+def make_fermion_pair(flavour: str):
+    """|M|^2 for e-(p1) e+(p2) -> f(p3) fbar(p4) through s-channel gamma and Z, full interference.
+
+    Massless helicity amplitudes: (1/4) sum |M|^2 = N_c [u^2 (|f_LL|^2 + |f_RR|^2)
+    + t^2 (|f_LR|^2 + |f_RL|^2)], f_ij = e^2 [Q_e Q_f/s + g_i^e g_j^f / (s_W^2 c_W^2 (s - m_Z^2
+    + i m_Z Gamma_Z))], g_L = T3 - Q s_W^2, g_R = -Q s_W^2. Integrated, it gives the textbook
+    sigma = (4 pi alpha^2 / 3 s) N_c [Q_f^2 - 2 Q_f v_e v_f chi_1 + (v_e^2 + a_e^2)(v_f^2 + a_f^2)
+    chi_2] (Ellis, Stirling & Webber, QCD and Collider Physics (1996), sec. 3.1); for f = e the
+    t-channel gamma and Z are added, (1/4) sum |M|^2 = u^2 (|f_LL(s) + f_LL(t)|^2 + |f_RR(s) +
+    f_RR(t)|^2) + t^2 (|f_LR(s)|^2 + |f_RL(s)|^2) + s^2 (|f_LR(t)|^2 + |f_RL(t)|^2) (Budny,
+    Phys. Lett. B 55 (1975) 227, in helicity form; from memory).
+    """
+    nc = 3.0 if species(flavour).is_quark else 1.0
+
+    def matrix(s, t, u, par):
+        sw2 = par["sw2"]
+        qe, gle, gre = _chiral("e-", sw2)
+        qf, glf, grf = _chiral(flavour, sw2)
+        ll, rr, lr, rl = _amplitudes(s, qe * qf, gle, gre, glf, grf, par, True)
+        if flavour == "e-":
+            tll, trr, tlr, trl = _amplitudes(t, qe * qf, gle, gre, glf, grf, par, False)
+            return (u * u * (np.abs(ll + tll) ** 2 + np.abs(rr + trr) ** 2)
+                    + t * t * (np.abs(lr) ** 2 + np.abs(rl) ** 2)
+                    + s * s * (np.abs(tlr) ** 2 + np.abs(trl) ** 2))
+        return nc * (u * u * (np.abs(ll) ** 2 + np.abs(rr) ** 2) + t * t * (np.abs(lr) ** 2 + np.abs(rl) ** 2))
+
+    matrix.__doc__ = make_fermion_pair.__doc__
+    return matrix
+
+
+def higgs_strahlung(s, t, u, par):
+    """e-(p1) e+(p2) -> Z(p3) H(p4) through an s-channel Z, summed over Z polarizations.
+
+    (1/4) sum |M|^2 = (g_Z^4 m_Z^2 / 4) (v_e^2 + a_e^2) [s/2 + (m_Z^2 - t)(m_Z^2 - u)/(2 m_Z^2)]
+    / |s - m_Z^2 + i m_Z Gamma_Z|^2 with g_Z = e/(s_W c_W), v_e = -1/2 + 2 s_W^2, a_e = -1/2 (the
+    Z-fermion vertex -i (g_Z/2) gamma^mu (v - a gamma5), the ZZH vertex i g_Z m_Z g^{mu nu}).
+    Integrated it gives sigma = G_F^2 m_Z^4 / (96 pi s) (v'^2 + a'^2) lambda^(1/2) (lambda +
+    12 m_Z^2/s) / (1 - m_Z^2/s)^2, v' = -1 + 4 s_W^2, a' = -1, for Gamma_Z = 0 (Djouadi,
+    Phys. Rept. 457 (2008) 1, sec. 3.1; formula from memory).
+    """
+    sw2 = par["sw2"]
+    gz2 = 4.0 * math.pi * par["alpha"] / (sw2 * (1.0 - sw2))
+    mz2 = par["m_Z"] ** 2
+    ve, ae = -0.5 + 2.0 * sw2, -0.5
+    den = (s - mz2) ** 2 + mz2 * par["width_Z"] ** 2
+    bracket = 0.5 * s + (mz2 - t) * (mz2 - u) / (2.0 * mz2)
+    return 0.25 * gz2 * gz2 * mz2 * (ve * ve + ae * ae) * bracket / den
+
+
+def _resolve(over):
+    scheme = str(over.get("scheme", "fermi"))
+    mz = float(over.get("m_Z", species("Z").mass))
+    mw = float(over.get("m_W", species("W+").mass))
+    gf = float(over.get("g_fermi", G_FERMI))
+    out: dict[str, float | str] = {"scheme": scheme, "m_Z": mz,
+                                    "width_Z": float(over.get("width_Z", species("Z").width)),
+                                    "m_H": float(over.get("m_H", species("H").mass))}
+    if scheme == "fermi":
+        sw2 = 1.0 - (mw / mz) ** 2
+        out.update(m_W=mw, g_fermi=gf, sw2=sw2, alpha=math.sqrt(2.0) * gf * mw * mw * sw2 / math.pi)
+    elif scheme == "thomson":
+        out.update(m_W=mw, alpha=float(over.get("alpha", ALPHA_0)), sw2=1.0 - (mw / mz) ** 2)
+    else:
+        out.update(alpha=float(over.get("alpha", ALPHA_MZ)), sw2=float(over.get("sw2", SW2_EFFECTIVE)))
+    return out
+
+
+#: Which card parameters each scheme takes as input (the others are derived or unused).
+SCHEME_INPUTS = {
+    "fermi": ("m_W", "g_fermi"),
+    "thomson": ("m_W", "alpha"),
+    "zpole": ("alpha", "sw2"),
+}
+
+_QUARK_FLOW = ColourFlow(((0, 0), (0, 0), (1, 0), (0, 1)))
+
+_PROC = []
+for _f in ("e-", "mu-", "tau-", "d", "u", "s", "c", "b"):
+    _anti = {"e-": "e+", "mu-": "mu+", "tau-": "tau+"}.get(_f, _f + "bar")
+    _PROC.append(ProcessSpec(
+        "electroweak", ("e-", "e+"), (_f, _anti), make_fermion_pair(_f), make_fermion_pair.__doc__,
+        poles="forward" if _f == "e-" else "none", pole_power=2, needs_angular_cut=_f == "e-",
+        colour=_QUARK_FLOW if species(_f).is_quark else None))
+_PROC.append(ProcessSpec("electroweak", ("e-", "e+"), ("Z", "H"), higgs_strahlung, higgs_strahlung.__doc__))
+
+MODEL = Model(
+    name="electroweak",
+    doc="Tree-level electroweak theory with a selectable input scheme (fermi, thomson, zpole).",
+    params={
+        "scheme": Param("fermi", unit="", doc="electroweak input scheme", choices=SCHEMES),
+        "m_Z": Param(None, 1.0, 1e4, "GeV", "Z mass (PDG by default)"),
+        "width_Z": Param(None, 0.0, 1e3, "GeV", "Z width in the s-channel propagator (PDG by default)"),
+        "m_W": Param(None, 1.0, 1e4, "GeV", "W mass (PDG by default; fermi and thomson schemes)"),
+        "m_H": Param(None, 1.0, 1e4, "GeV", "Higgs mass (PDG by default)"),
+        "g_fermi": Param(G_FERMI, 1e-7, 1e-3, "GeV^-2", "Fermi constant (CODATA by default; fermi scheme)"),
+        "alpha": Param(None, 1e-6, 1.0, "", "fine-structure constant (thomson: alpha(0); zpole: alpha(m_Z))"),
+        "sw2": Param(SW2_EFFECTIVE, 0.0, 1.0, "", "sin^2 theta (zpole scheme only)"),
+    },
+    resolve=_resolve,
+    masses=lambda par: {"Z": par["m_Z"], "H": par["m_H"]},
+    processes=tuple(_PROC),
+)

@@ -1,0 +1,111 @@
+"""Particle identities: names, PDG Monte Carlo numbers, charges and PDG masses and widths.
+
+Masses and widths (GeV) come from the `particle` package (PDG data) on first use. A model may
+override them from the card; the resolved values go to the file metadata. The names are the
+ones a card uses; PDG ids are accepted too.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from fractions import Fraction
+from functools import lru_cache
+
+from .errors import CardError, close_matches
+
+__all__ = ["Species", "species", "lookup", "SCALAR_ID", "known_names"]
+
+#: PDG-style id this project gives the real scalar of the scalar model. The PDG numbering has no
+#: entry for it; the number is outside the ranges the numbering assigns (common practice, no source).
+SCALAR_ID = 9900001
+
+
+@dataclass(frozen=True)
+class Species:
+    """One particle species. Mass and width in GeV; charge in units of e; t3 of the left-handed state."""
+
+    name: str
+    pdg: int
+    charge: float
+    t3: float
+    colour: int  # 1 singlet, 3 triplet, -3 anti-triplet, 8 octet
+    spin2: int  # twice the spin
+    mass: float
+    width: float
+
+    @property
+    def is_quark(self) -> bool:
+        return abs(self.colour) == 3
+
+
+# name, pdg, charge, t3 (of the left-handed particle state), colour, 2*spin
+_TABLE = [
+    ("e-", 11, -1, -0.5, 1, 1), ("e+", -11, 1, 0.5, 1, 1),
+    ("mu-", 13, -1, -0.5, 1, 1), ("mu+", -13, 1, 0.5, 1, 1),
+    ("tau-", 15, -1, -0.5, 1, 1), ("tau+", -15, 1, 0.5, 1, 1),
+    ("nu_e", 12, 0, 0.5, 1, 1), ("nu_ebar", -12, 0, -0.5, 1, 1),
+    ("nu_mu", 14, 0, 0.5, 1, 1), ("nu_mubar", -14, 0, -0.5, 1, 1),
+    ("nu_tau", 16, 0, 0.5, 1, 1), ("nu_taubar", -16, 0, -0.5, 1, 1),
+    ("d", 1, Fraction(-1, 3), -0.5, 3, 1), ("dbar", -1, Fraction(1, 3), 0.5, -3, 1),
+    ("u", 2, Fraction(2, 3), 0.5, 3, 1), ("ubar", -2, Fraction(-2, 3), -0.5, -3, 1),
+    ("s", 3, Fraction(-1, 3), -0.5, 3, 1), ("sbar", -3, Fraction(1, 3), 0.5, -3, 1),
+    ("c", 4, Fraction(2, 3), 0.5, 3, 1), ("cbar", -4, Fraction(-2, 3), -0.5, -3, 1),
+    ("b", 5, Fraction(-1, 3), -0.5, 3, 1), ("bbar", -5, Fraction(1, 3), 0.5, -3, 1),
+    ("t", 6, Fraction(2, 3), 0.5, 3, 1), ("tbar", -6, Fraction(-2, 3), -0.5, -3, 1),
+    ("g", 21, 0, 0, 8, 2), ("gamma", 22, 0, 0, 1, 2),
+    ("Z", 23, 0, 0, 1, 2), ("W+", 24, 1, 0, 1, 2), ("W-", -24, -1, 0, 1, 2),
+    ("H", 25, 0, 0, 1, 0),
+    ("phi", SCALAR_ID, 0, 0, 1, 0),
+]
+
+_ALIASES = {
+    "electron": "e-", "positron": "e+", "photon": "gamma", "muon": "mu-", "antimuon": "mu+",
+    "gluon": "g", "higgs": "H", "Z0": "Z", "H0": "H", "a": "gamma",
+}
+
+_BY_NAME = {row[0]: row for row in _TABLE}
+_BY_PDG = {row[1]: row for row in _TABLE}
+
+
+def known_names() -> list[str]:
+    return [row[0] for row in _TABLE]
+
+
+@lru_cache(maxsize=None)
+def _pdg_mass_width(pdg: int) -> tuple[float, float]:
+    if pdg == SCALAR_ID:
+        return 0.0, 0.0
+    from particle import Particle
+
+    p = Particle.from_pdgid(pdg)
+    mass = (p.mass or 0.0) * 1e-3
+    width = (p.width or 0.0) * 1e-3
+    return mass, width
+
+
+@lru_cache(maxsize=None)
+def species(name: str) -> Species:
+    """The species of a canonical name (see `known_names`), with PDG mass and width in GeV."""
+    row = _BY_NAME[name]
+    mass, width = _pdg_mass_width(abs(row[1]))
+    return Species(row[0], row[1], float(row[2]), row[3], row[4], row[5], mass, width)
+
+
+def lookup(token: object, source: str = "<card>", key: str = "") -> Species:
+    """Resolve a card token (a name, an alias or a PDG id) to a Species, or raise CardError."""
+    if isinstance(token, bool) or not isinstance(token, (str, int)):
+        raise CardError(source, key, f"expected a particle name or PDG id, found {token!r}")
+    if isinstance(token, int):
+        if token in _BY_PDG:
+            return species(_BY_PDG[token][0])
+        raise CardError(source, key, f"PDG id {token} is not a particle gen knows; known ids: "
+                        + ", ".join(str(r[1]) for r in _TABLE))
+    name = _ALIASES.get(token, token)
+    if name in _BY_NAME:
+        return species(name)
+    try:
+        return lookup(int(token), source, key)
+    except ValueError:
+        pass
+    hint = close_matches(token, list(_BY_NAME) + list(_ALIASES))
+    raise CardError(source, key, f"unknown particle {token!r}{hint}; known names: " + ", ".join(known_names()))

@@ -1,0 +1,229 @@
+"""A process ready to integrate: beams, matrix element, phase space and cuts as one integrand.
+
+`build_process` turns a RunConfig into a `TwoToTwo`. Its `weights(x)` is the vegas integrand on the
+unit hypercube (pb per unit volume); `momenta(x, rng)` makes the laboratory four-momenta of the
+points x (incoming and outgoing, in the user's particle order). Everything is vectorized over
+points; nothing here draws random numbers except the azimuth, from the generator it is given.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .card import RunConfig
+from .constants import HBARC2_PB
+from .errors import CardError
+from .kinematics import AngularMap, boost_z, kallen, momentum_2body, two_body
+from .matrix import MODELS, ProcessSpec, find_process
+from .particles import Species
+
+__all__ = ["TwoToTwo", "build_process", "Beams"]
+
+
+@dataclass(frozen=True)
+class Beams:
+    """Laboratory momenta of the two incoming particles and what follows from them."""
+
+    p1: np.ndarray  # (4,)
+    p2: np.ndarray
+    key: str  # the card key that set the energies, for error messages
+
+    @property
+    def sqrt_s(self) -> float:
+        p = self.p1 + self.p2
+        return math.sqrt(p[0] ** 2 - p[1] ** 2 - p[2] ** 2 - p[3] ** 2)
+
+    @property
+    def beta(self) -> float:
+        """Speed of the centre-of-mass frame along +z in the laboratory."""
+        p = self.p1 + self.p2
+        return p[3] / p[0]
+
+
+def _beams(cfg: RunConfig, m1: float, m2: float) -> Beams:
+    col = cfg.collider
+    src = cfg.source
+
+    def along(e, m, sign, key):
+        if e < m:
+            raise CardError(src, key, f"beam energy {e:g} GeV is below the particle mass {m:g} GeV")
+        return np.array([e, 0.0, 0.0, sign * math.sqrt(max(e * e - m * m, 0.0))])
+
+    if "sqrt_s" in col:
+        rs = float(col["sqrt_s"])
+        e1 = (rs * rs + m1 * m1 - m2 * m2) / (2.0 * rs)
+        if e1 < m1 or rs - e1 < m2:
+            raise CardError(src, "collider.sqrt_s", f"{rs:g} GeV is below the incoming masses {m1:g} + {m2:g} GeV")
+        return Beams(along(e1, m1, 1, "collider.sqrt_s"), along(rs - e1, m2, -1, "collider.sqrt_s"), "collider.sqrt_s")
+    if "beam_energies" in col:
+        e1, e2 = map(float, col["beam_energies"])
+        k = "collider.beam_energies"
+        return Beams(along(e1, m1, 1, k), along(e2, m2, -1, k), k)
+    e1 = float(col["beam_energy"])
+    k = "collider.beam_energy"
+    return Beams(along(e1, m1, 1, k), np.array([m2, 0.0, 0.0, 0.0]), k)
+
+
+class TwoToTwo:
+    """A 2->2 process at fixed beam energies: one integration variable, the mapped cos(theta*)."""
+
+    ndim = 1
+
+    def __init__(self, cfg: RunConfig):
+        self.cfg = cfg
+        model = MODELS[cfg.model]
+        found = find_process(model, tuple(p.name for p in cfg.incoming), tuple(p.name for p in cfg.outgoing))
+        assert found is not None  # the card checked it
+        self.spec: ProcessSpec = found[0]
+        self.in_perm, self.out_perm = found[1], found[2]
+        self.params = model.resolve(cfg.parameters)
+        model_masses = model.masses(self.params)
+        for pdg in cfg.masses:
+            for name in model_masses:
+                if abs(_species(name).pdg) == pdg:
+                    raise CardError(cfg.source, f"parameters.masses.{name}",
+                                    f"the {model.name} model sets this mass from its parameters; set it there")
+        self.species: tuple[Species, ...] = tuple(cfg.incoming) + tuple(cfg.outgoing)
+        self.masses = tuple(self._mass(sp, model_masses) for sp in self.species)
+        # canonical order -> masses as the matrix element sees them
+        order = [self.in_perm[0], self.in_perm[1], 2 + self.out_perm[0], 2 + self.out_perm[1]]
+        self.canonical = order
+        cm = tuple(self.masses[i] for i in order)
+        self.me_params = dict(self.params, m1=cm[0], m2=cm[1], m3=cm[2], m4=cm[3])
+        self.beams = _beams(cfg, self.masses[0], self.masses[1])
+        self.sqrt_s = self.beams.sqrt_s
+        self.s = self.sqrt_s**2
+        m3, m4 = self.masses[2], self.masses[3]
+        if self.sqrt_s <= m3 + m4:
+            raise CardError(cfg.source, self.beams.key,
+                            f"sqrt(s) = {self.sqrt_s:.6g} GeV is below the threshold {m3 + m4:.6g} GeV of "
+                            f"{' '.join(p.name for p in cfg.outgoing)}")
+        self.p_in = momentum_2body(self.sqrt_s, self.masses[0], self.masses[1])
+        self.p_out = momentum_2body(self.sqrt_s, m3, m4)
+        # flux 1/(2 lambda^1/2(s, m1^2, m2^2)) times two-body phase space p_f/(8 pi sqrt s) dcos
+        flux = 1.0 / (2.0 * math.sqrt(kallen(self.s, self.masses[0] ** 2, self.masses[1] ** 2)))
+        self.norm = HBARC2_PB * self.spec.symmetry * flux * self.p_out / (8.0 * math.pi * self.sqrt_s)
+        self.beta = self.beams.beta
+        # the user's first outgoing particle is the one at theta*; is it canonical p3?
+        self.flip = self.out_perm[0] != 0
+        self.in_flip = self.in_perm[0] != 0
+        self.selected = [i for i, sp in enumerate(cfg.outgoing)
+                         if "particles" not in cfg.cuts or sp.name in cfg.cuts["particles"]]
+        self.map = self._angular_map()
+
+    def _mass(self, sp: Species, model_masses: dict[str, float]) -> float:
+        for name, m in model_masses.items():
+            if abs(_species(name).pdg) == abs(sp.pdg):
+                return float(m)
+        return float(self.cfg.masses.get(abs(sp.pdg), sp.mass))
+
+    # --- angular variable ------------------------------------------------------------------
+    def _angular_map(self) -> AngularMap:
+        """The cos(theta*) range the cuts allow, and a map that follows the poles within it."""
+        grid = np.linspace(-1.0, 1.0, 20001)
+        ok = self.cut_mask(self._lab_outgoing(grid, np.zeros_like(grid)))
+        if not ok.any():
+            raise CardError(self.cfg.source, "cuts", "the cuts reject every event of this process at this energy")
+        idx = np.flatnonzero(ok)
+        step = grid[1] - grid[0]
+        lo = max(-1.0, grid[idx[0]] - step)
+        hi = min(1.0, grid[idx[-1]] + step)
+        spec = self.spec
+        # the angle of canonical p3 against canonical p1 is the map's variable
+        kind = spec.poles
+        gap = 0.0 if spec.pole_gap is None else spec.pole_gap(self.s, tuple(self.me_params[f"m{i}"] for i in (1, 2, 3, 4)))
+        if kind != "none" and gap <= 0.0:
+            reach_f = kind in ("forward", "both") and hi >= 1.0
+            reach_b = kind in ("backward", "both") and lo <= -1.0
+            if reach_f or reach_b:
+                raise CardError(self.cfg.source, "cuts.theta_min_deg",
+                                f"{spec.label} has a {'forward' if reach_f else 'backward'} pole (massless exchange); "
+                                "cut the scattering angle away from the beam (for example theta_min_deg = 10 and "
+                                "theta_max_deg = 170)")
+            gap = 0.0
+        return AngularMap(kind, spec.pole_power, gap, float(lo), float(hi))
+
+    # --- kinematics --------------------------------------------------------------------------
+    def _cos_user(self, c):
+        """cos(theta*) of the user's first outgoing particle against beam 1 from the canonical c."""
+        return -c if self.flip != self.in_flip else c
+
+    def _lab_outgoing(self, c, phi):
+        """Laboratory momenta (N, 2, 4) of the outgoing particles in the user's order."""
+        out = two_body(self.sqrt_s, self.masses[2], self.masses[3], self._cos_user(c), phi)
+        return boost_z(out, self.beta)
+
+    def cut_mask(self, out):
+        """True for events whose outgoing particles (N, 2, 4) pass the card's cuts."""
+        cuts = self.cfg.cuts
+        ok = np.ones(out.shape[0], dtype=bool)
+        sel = out[:, self.selected, :]
+        e = sel[..., 0]
+        pt = np.hypot(sel[..., 1], sel[..., 2])
+        pabs = np.sqrt(pt * pt + sel[..., 3] ** 2)
+        if cuts["theta_min_deg"] > 0.0 or cuts["theta_max_deg"] < 180.0:
+            cos_t = np.divide(sel[..., 3], pabs, out=np.ones_like(pabs), where=pabs > 0)
+            ok &= np.all((cos_t <= math.cos(math.radians(cuts["theta_min_deg"])))
+                         & (cos_t >= math.cos(math.radians(cuts["theta_max_deg"]))), axis=1)
+        if cuts["energy_min"] > 0.0 or cuts["energy_max"] < math.inf:
+            ok &= np.all((e >= cuts["energy_min"]) & (e <= cuts["energy_max"]), axis=1)
+        if cuts["pt_min"] > 0.0 or cuts["pt_max"] < math.inf:
+            ok &= np.all((pt >= cuts["pt_min"]) & (pt <= cuts["pt_max"]), axis=1)
+        if cuts["mass_min"] > 0.0 or cuts["mass_max"] < math.inf:
+            tot = sel.sum(axis=1)
+            m = np.sqrt(np.clip(tot[:, 0] ** 2 - tot[:, 1] ** 2 - tot[:, 2] ** 2 - tot[:, 3] ** 2, 0.0, None))
+            ok &= (m >= cuts["mass_min"]) & (m <= cuts["mass_max"])
+        return ok
+
+    def _mandelstam(self, c):
+        """s, t, u of the canonical order from the canonical cos(theta*) c (exact in the CM frame)."""
+        m1, m2, m3, m4 = (self.me_params[k] for k in ("m1", "m2", "m3", "m4"))
+        rs = self.sqrt_s
+        e1 = (self.s + m1 * m1 - m2 * m2) / (2.0 * rs)
+        e3 = (self.s + m3 * m3 - m4 * m4) / (2.0 * rs)
+        pp = self.p_in * self.p_out
+        t = m1 * m1 + m3 * m3 - 2.0 * (e1 * e3 - pp * c)
+        u = m1 * m1 + m4 * m4 - 2.0 * (e1 * (rs - e3) + pp * c)
+        return np.full_like(c, self.s), t, u
+
+    # --- integrand and events ------------------------------------------------------------------
+    def weights(self, x):
+        """Weights (pb) of points x of shape (N, 1): sigma = mean of the weights over uniform x."""
+        c, jac = self.map(x[:, 0])
+        s, t, u = self._mandelstam(c)
+        w = self.norm * jac * self.spec.matrix(s, t, u, self.me_params)
+        if self._has_cuts:
+            w = np.where(self.cut_mask(self._lab_outgoing(c, np.zeros_like(c))), w, 0.0)
+        return w
+
+    @property
+    def _has_cuts(self) -> bool:
+        c = self.cfg.cuts
+        return (c["theta_min_deg"] > 0 or c["theta_max_deg"] < 180 or c["energy_min"] > 0
+                or c["energy_max"] < math.inf or c["pt_min"] > 0 or c["pt_max"] < math.inf
+                or c["mass_min"] > 0 or c["mass_max"] < math.inf)
+
+    def momenta(self, x, rng: np.random.Generator):
+        """Laboratory momenta (N, 4, 4) for points x: incoming then outgoing, in the user's order."""
+        n = x.shape[0]
+        c, _ = self.map(x[:, 0])
+        phi = rng.random(n) * (2.0 * math.pi)
+        p = np.empty((n, 4, 4))
+        p[:, 0, :] = self.beams.p1
+        p[:, 1, :] = self.beams.p2
+        p[:, 2:, :] = self._lab_outgoing(c, phi)
+        return p
+
+
+def _species(name: str) -> Species:
+    from .particles import species
+
+    return species(name)
+
+
+def build_process(cfg: RunConfig) -> TwoToTwo:
+    """The integrand object for a validated card (raises CardError for impossible kinematics)."""
+    return TwoToTwo(cfg)

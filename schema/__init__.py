@@ -1,0 +1,1 @@
+"""Data package holding the event-file schema (`events.json`); read through `gen.store`."""
