@@ -128,9 +128,10 @@ class TwoToTwo:
         if not ok.any():
             raise CardError(self.cfg.source, "cuts", "the cuts reject every event of this process at this energy")
         idx = np.flatnonzero(ok)
-        step = grid[1] - grid[0]
-        lo = max(-1.0, grid[idx[0]] - step)
-        hi = min(1.0, grid[idx[-1]] + step)
+        # the edges of the allowed range, refined by bisection so that the integrand does not jump
+        # to zero inside the mapped range (vegas underestimates its error on such steps)
+        lo = grid[0] if idx[0] == 0 else self._edge(grid[idx[0] - 1], grid[idx[0]])
+        hi = grid[-1] if idx[-1] == grid.size - 1 else self._edge(grid[idx[-1] + 1], grid[idx[-1]])
         spec = self.spec
         # the angle of canonical p3 against canonical p1 is the map's variable
         kind = spec.poles
@@ -145,6 +146,18 @@ class TwoToTwo:
                                 "theta_max_deg = 170)")
             gap = 0.0
         return AngularMap(kind, spec.pole_power, gap, float(lo), float(hi))
+
+    def _edge(self, fail: float, ok: float) -> float:
+        """The boundary between a rejected and an accepted cos(theta*), to the last bit; returns the accepted side."""
+        for _ in range(64):
+            mid = 0.5 * (fail + ok)
+            if mid in (fail, ok):
+                break
+            if self.cut_mask(self._lab_outgoing(np.array([mid]), np.zeros(1)))[0]:
+                ok = mid
+            else:
+                fail = mid
+        return float(ok)
 
     # --- kinematics --------------------------------------------------------------------------
     def _cos_user(self, c):

@@ -9,8 +9,8 @@ Input schemes (card key `parameters.scheme`):
   reproduces the measured Z-pole asymmetries best.
 
 The Z propagator carries a fixed width in the s channel, 1/(s - m_Z^2 + i m_Z Gamma_Z), and none
-in the t channel. Fermion masses enter the kinematics but are neglected in |M|^2 (corrections of
-order m_f^2/s: below 1% for b quarks at the Z pole).
+in the t channel. The final-fermion mass is kept in |M|^2 and in the kinematics; the electron mass
+only in the kinematics (corrections of order m_e^2/s).
 """
 
 from __future__ import annotations
@@ -47,14 +47,18 @@ def _amplitudes(x, qq, gl_e, gr_e, gl_f, gr_f, par, width: bool):
 def make_fermion_pair(flavour: str):
     """|M|^2 for e-(p1) e+(p2) -> f(p3) fbar(p4) through s-channel gamma and Z, full interference.
 
-    Massless helicity amplitudes: (1/4) sum |M|^2 = N_c [u^2 (|f_LL|^2 + |f_RR|^2)
-    + t^2 (|f_LR|^2 + |f_RL|^2)], f_ij = e^2 [Q_e Q_f/s + g_i^e g_j^f / (s_W^2 c_W^2 (s - m_Z^2
-    + i m_Z Gamma_Z))], g_L = T3 - Q s_W^2, g_R = -Q s_W^2. Integrated, it gives the textbook
-    sigma = (4 pi alpha^2 / 3 s) N_c [Q_f^2 - 2 Q_f v_e v_f chi_1 + (v_e^2 + a_e^2)(v_f^2 + a_f^2)
-    chi_2] (Ellis, Stirling & Webber, QCD and Collider Physics (1996), sec. 3.1); for f = e the
-    t-channel gamma and Z are added, (1/4) sum |M|^2 = u^2 (|f_LL(s) + f_LL(t)|^2 + |f_RR(s) +
-    f_RR(t)|^2) + t^2 (|f_LR(s)|^2 + |f_RL(s)|^2) + s^2 (|f_LR(t)|^2 + |f_RL(t)|^2) (Budny,
-    Phys. Lett. B 55 (1975) 227, in helicity form; from memory).
+    Helicity form with reduced amplitudes f_ij = e^2 [Q_e Q_f/s + g_i^e g_j^f / (s_W^2 c_W^2
+    (s - m_Z^2 + i m_Z Gamma_Z))], g_L = T3 - Q s_W^2, g_R = -Q s_W^2, massless electrons and the
+    final-fermion mass m kept:
+    (1/4) sum |M|^2 = N_c [(u - m^2)^2 (|f_LL|^2 + |f_RR|^2) + (t - m^2)^2 (|f_LR|^2 + |f_RL|^2)
+    + 2 m^2 s Re(f_LL f_LR* + f_RR f_RL*)], from the Dirac traces of the vector and axial currents.
+    For m = 0 it integrates to the textbook sigma = (4 pi alpha^2 / 3 s) N_c [Q_f^2 - 2 Q_f v_e v_f
+    chi_1 + (v_e^2 + a_e^2)(v_f^2 + a_f^2) chi_2] (Ellis, Stirling & Webber, QCD and Collider
+    Physics (1996), sec. 3.1); for the photon alone it is Peskin & Schroeder eq. 5.10.
+    For f = e (massless) the t-channel gamma and Z are added: (1/4) sum |M|^2 = u^2 (|f_LL(s) +
+    f_LL(t)|^2 + |f_RR(s) + f_RR(t)|^2) + t^2 (|f_LR(s)|^2 + |f_RL(s)|^2) + s^2 (|f_LR(t)|^2 +
+    |f_RL(t)|^2) (the Bhabha amplitudes of Budny, Phys. Lett. B 55 (1975) 227, in helicity form;
+    from memory), with no width in the space-like propagator.
     """
     nc = 3.0 if species(flavour).is_quark else 1.0
 
@@ -68,7 +72,10 @@ def make_fermion_pair(flavour: str):
             return (u * u * (np.abs(ll + tll) ** 2 + np.abs(rr + trr) ** 2)
                     + t * t * (np.abs(lr) ** 2 + np.abs(rl) ** 2)
                     + s * s * (np.abs(tlr) ** 2 + np.abs(trl) ** 2))
-        return nc * (u * u * (np.abs(ll) ** 2 + np.abs(rr) ** 2) + t * t * (np.abs(lr) ** 2 + np.abs(rl) ** 2))
+        m2 = par["m3"] ** 2
+        return nc * ((u - m2) ** 2 * (np.abs(ll) ** 2 + np.abs(rr) ** 2)
+                     + (t - m2) ** 2 * (np.abs(lr) ** 2 + np.abs(rl) ** 2)
+                     + 2.0 * m2 * s * (ll * np.conj(lr) + rr * np.conj(rl)).real)
 
     matrix.__doc__ = make_fermion_pair.__doc__
     return matrix
