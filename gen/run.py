@@ -79,7 +79,7 @@ def _record(proc: TwoToTwo, xs: CrossSection, job: int, jobs: int) -> dict:
         "program": f"gen {__version__}",
         "card": {"path": cfg.source, "text": cfg.text},
         "process": {"model": cfg.model, "incoming": [p.name for p in cfg.incoming],
-                    "outgoing": [p.name for p in cfg.outgoing], "label": proc.spec.label,
+                    "outgoing": [p.name for p in cfg.outgoing], "label": _layout_label(cfg),
                     "symmetry_factor": proc.spec.symmetry, "source": " ".join(proc.spec.source.split())},
         "collider": {"sqrt_s_GeV": proc.sqrt_s, "beam1_GeV": proc.beams.p1.tolist(),
                      "beam2_GeV": proc.beams.p2.tolist(), "cm_beta_z": proc.beta},
