@@ -48,7 +48,7 @@ class EventLayout:
         n_ev = weights.shape[0]
         n = self.n
         m = n_ev * n
-        flat = momenta.reshape(m, 4)
+        comp = np.ascontiguousarray(momenta.reshape(m, 4).T)  # (4, m): each component contiguous
 
         def tile(a):
             return pa.array(np.tile(a, n_ev))
@@ -57,7 +57,7 @@ class EventLayout:
             tile(self.pdg),
             pa.DictionaryArray.from_arrays(pa.array(np.tile(self._role_codes, n_ev)), self._role_dict),
             tile(self.parent_first), tile(self.parent_last), tile(self.colour), tile(self.anticolour),
-            pa.array(flat[:, 0]), pa.array(flat[:, 1]), pa.array(flat[:, 2]), pa.array(flat[:, 3]),
+            pa.array(comp[0]), pa.array(comp[1]), pa.array(comp[2]), pa.array(comp[3]),
             tile(self.mass), pa.nulls(m, pa.float32()),
         ]
         particles = pa.StructArray.from_arrays(fields, fields=list(self._particle_type))

@@ -1,0 +1,120 @@
+"""Benchmark: unweighted e+e- -> mu+mu- events to Parquet, end to end and by bare parts.
+
+Run as `python -m gen.benchmark` (add `--sizes 100000 1000000 10000000` for the memory check).
+For each size it starts a fresh Python process, so peak memory (max RSS) is that size's alone,
+and prints:
+
+- end-to-end events per second of `gen.run` (adaptation, calibration, unweighting, momenta,
+  Arrow batches and the streamed Parquet write, from a validated card to the renamed file);
+- in the same process, the bare parts on the same numbers: the integrand evaluated alone on as
+  many points as the run drew, and a plain pyarrow write of the same event columns alone;
+- the ratio of end-to-end time to the sum of the bare parts, peak memory and the unweighting
+  efficiency.
+
+Timings are medians over `--repeat` runs (these machines are noisy); nothing here is a test.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import resource
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+CARD = """
+[process]
+model = "qed"
+incoming = ["e-", "e+"]
+outgoing = ["mu-", "mu+"]
+[collider]
+sqrt_s = 10.58
+[sampling]
+events = {n}
+weighted_events = 0
+seed = 1
+"""
+
+
+def _one(n: int, repeat: int) -> dict:
+    import numpy as np
+    import pyarrow.parquet as pq
+
+    import gen
+    from gen.process import build_process
+    from gen.store import EventWriter
+
+    cfg = gen.parse_card(CARD.format(n=n), "benchmark.toml")
+    e2e, bare_f, bare_w = [], [], []
+    eff = 0.0
+    with tempfile.TemporaryDirectory() as tmp:
+        for r in range(repeat):
+            t0 = time.perf_counter()
+            res = gen.run(cfg, folder=Path(tmp) / f"run{r}")
+            e2e.append(time.perf_counter() - t0)
+            if r == 0:  # peak memory of the run itself, before the bare parts load a whole table
+                rss_run = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+            eff = res.unweighting.efficiency
+            trials = (res.unweighting.trials + cfg.sampling["calibration_points"]
+                      + cfg.integration["points_per_iteration"] * (cfg.integration["warmup_iterations"]
+                                                                  + cfg.integration["iterations"]))
+            # bare part 1: the integrand alone on as many points, in the same chunks
+            proc = build_process(cfg)
+            rng = np.random.default_rng(0)
+            chunk = cfg.sampling["chunk"]
+            t0 = time.perf_counter()
+            for start in range(0, trials, chunk):
+                proc.weights(rng.random((min(chunk, trials - start), 1)))
+            bare_f.append(time.perf_counter() - t0)
+            # bare part 2: a plain pyarrow write of the same event columns, held in memory
+            table = pq.read_table(res.files[0]) if n <= 2_000_000 else None
+            if table is not None:
+                t0 = time.perf_counter()
+                pq.write_table(table, Path(tmp) / "plain.parquet", compression="snappy",
+                               use_dictionary=["subprocess", "particles.list.particle.role",
+                                               "particles.list.particle.pdg"],
+                               row_group_size=cfg.output["row_group_events"])
+                bare_w.append(time.perf_counter() - t0)
+                del table
+            for f in Path(tmp).glob("**/*.parquet"):
+                f.unlink()
+    t_e2e = statistics.median(e2e)
+    out = {"events": n, "end_to_end_s": t_e2e, "events_per_s": n / t_e2e, "efficiency": eff,
+           "integrand_alone_s": statistics.median(bare_f),
+           "peak_rss_MB": rss_run}
+    if bare_w:
+        out["plain_write_s"] = statistics.median(bare_w)
+        out["ratio_to_bare_parts"] = t_e2e / (out["integrand_alone_s"] + out["plain_write_s"])
+    return out
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--sizes", type=int, nargs="+", default=[1_000_000])
+    ap.add_argument("--repeat", type=int, default=3)
+    ap.add_argument("--one", type=int, help=argparse.SUPPRESS)
+    args = ap.parse_args(argv)
+    if args.one:
+        print(json.dumps(_one(args.one, args.repeat)))
+        return 0
+    print(f"{'events':>10} {'end-to-end':>11} {'events/s':>10} {'integrand':>10} {'plain write':>12} "
+          f"{'ratio':>6} {'peak RSS':>9} {'efficiency':>10}")
+    for n in args.sizes:
+        rep = args.repeat if n <= 2_000_000 else 1
+        r = subprocess.run([sys.executable, "-m", "gen.benchmark", "--one", str(n), "--repeat", str(rep)],
+                           capture_output=True, text=True, check=True)
+        d = json.loads(r.stdout.strip().splitlines()[-1])
+        pw = f"{d['plain_write_s']:.2f} s" if "plain_write_s" in d else "-"
+        ratio = f"{d['ratio_to_bare_parts']:.2f}" if "ratio_to_bare_parts" in d else "-"
+        print(f"{n:>10} {d['end_to_end_s']:>9.2f} s {d['events_per_s']:>10.0f} {d['integrand_alone_s']:>8.2f} s "
+              f"{pw:>12} {ratio:>6} {d['peak_rss_MB']:>6.0f} MB {d['efficiency']:>10.1%}")
+        sys.stdout.flush()
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
