@@ -46,7 +46,6 @@ def _one(n: int, repeat: int) -> dict:
 
     import gen
     from gen.process import build_process
-    from gen.store import EventWriter
 
     cfg = gen.parse_card(CARD.format(n=n), "benchmark.toml")
     e2e, bare_f, bare_w = [], [], []

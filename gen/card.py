@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import math
 import tomllib
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
@@ -96,7 +96,6 @@ class RunConfig:
     integration: dict[str, Any]
     sampling: dict[str, Any]
     output: dict[str, Any]
-    extra: dict[str, Any] = field(default_factory=dict)
 
     def with_overrides(self, *, events: int | None = None, seed: int | None = None,
                        folder: str | None = None) -> "RunConfig":

@@ -18,7 +18,7 @@ from .constants import HBARC2_PB
 from .errors import CardError
 from .kinematics import AngularMap, boost_z, kallen, momentum_2body, two_body
 from .matrix import MODELS, ProcessSpec, find_process
-from .particles import Species
+from .particles import Species, species
 
 __all__ = ["TwoToTwo", "build_process", "Beams"]
 
@@ -83,7 +83,7 @@ class TwoToTwo:
         model_masses = model.masses(self.params)
         for pdg in cfg.masses:
             for name in model_masses:
-                if abs(_species(name).pdg) == pdg:
+                if abs(species(name).pdg) == pdg:
                     raise CardError(cfg.source, f"parameters.masses.{name}",
                                     f"the {model.name} model sets this mass from its parameters; set it there")
         self.species: tuple[Species, ...] = tuple(cfg.incoming) + tuple(cfg.outgoing)
@@ -116,7 +116,7 @@ class TwoToTwo:
 
     def _mass(self, sp: Species, model_masses: dict[str, float]) -> float:
         for name, m in model_masses.items():
-            if abs(_species(name).pdg) == abs(sp.pdg):
+            if abs(species(name).pdg) == abs(sp.pdg):
                 return float(m)
         return float(self.cfg.masses.get(abs(sp.pdg), sp.mass))
 
@@ -229,12 +229,6 @@ class TwoToTwo:
         p[:, 1, :] = self.beams.p2
         p[:, 2:, :] = self._lab_outgoing(c, phi)
         return p
-
-
-def _species(name: str) -> Species:
-    from .particles import species
-
-    return species(name)
 
 
 def build_process(cfg: RunConfig) -> TwoToTwo:

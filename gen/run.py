@@ -8,8 +8,8 @@ the events of another pass.
 
 from __future__ import annotations
 
+import contextlib
 import datetime as _dt
-import math
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
@@ -20,7 +20,6 @@ from . import __version__
 from .card import RunConfig
 from .errors import OutputError
 from .events import JOB_STRIDE, EventLayout
-from .matrix import MODELS
 from .process import TwoToTwo, build_process
 from .progress import Progress
 from .sampler import CrossSection, MapSampler, UnweightingStats, adapt
@@ -67,34 +66,33 @@ def _layout(proc: TwoToTwo) -> EventLayout:
         parent_last=np.array([-1, -1, 1, 1], np.int16),
         colour=colour, anticolour=anticolour,
         mass=np.array(proc.masses, np.float64),
-        subprocess=f"{' '.join(p.name for p in proc.cfg.incoming)} -> {' '.join(p.name for p in proc.cfg.outgoing)}",
+        subprocess=_label(proc.cfg),
         scale=proc.sqrt_s, alpha_em=alpha)
 
 
 def _record(proc: TwoToTwo, xs: CrossSection, job: int, jobs: int) -> dict:
     cfg = proc.cfg
-    params = {k: v for k, v in proc.params.items()}
     return {
         "schema_version": schema_doc()["version"],
         "program": f"gen {__version__}",
         "card": {"path": cfg.source, "text": cfg.text},
         "process": {"model": cfg.model, "incoming": [p.name for p in cfg.incoming],
-                    "outgoing": [p.name for p in cfg.outgoing], "label": _layout_label(cfg),
+                    "outgoing": [p.name for p in cfg.outgoing], "label": _label(cfg),
                     "symmetry_factor": proc.spec.symmetry, "source": " ".join(proc.spec.source.split())},
         "collider": {"sqrt_s_GeV": proc.sqrt_s, "beam1_GeV": proc.beams.p1.tolist(),
                      "beam2_GeV": proc.beams.p2.tolist(), "cm_beta_z": proc.beta},
-        "parameters": {"model": params,
+        "parameters": {"model": dict(proc.params),
                        "masses_GeV": {p.name: m for p, m in zip(proc.species, proc.masses)},
                        "widths_GeV": {p.name: cfg.widths.get(abs(p.pdg), p.width) for p in proc.species}},
         "cross_section": {"total": xs.as_dict(),
-                          "by_subprocess": {_layout_label(cfg): {"value_pb": xs.value, "error_pb": xs.error}}},
+                          "by_subprocess": {_label(cfg): {"value_pb": xs.value, "error_pb": xs.error}}},
         "seed": cfg.sampling["seed"],
         "job": {"index": job, "count": jobs},
         "integration": dict(cfg.integration),
     }
 
 
-def _layout_label(cfg: RunConfig) -> str:
+def _label(cfg: RunConfig) -> str:
     return f"{' '.join(p.name for p in cfg.incoming)} -> {' '.join(p.name for p in cfg.outgoing)}"
 
 
@@ -126,31 +124,31 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
     sampler = MapSampler(proc.weights, amap, proc.ndim, samp["chunk"])
     layout = _layout(proc)
     base = _record(proc, xs, job, jobs)
-    files: list[Path] = []
     stats = None
     rg = cfg.output["row_group_events"]
     now = lambda: _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")  # noqa: E731
-
-    n_unw = samp["events"]
-    if n_unw > 0:
-        stats = UnweightingStats(max_weight=sampler.max_weight(rng_cal, samp["calibration_points"]))
-        weight = xs.value / n_unw
-        progress.stage("unweight", n_unw)
-        with EventWriter(out / UNWEIGHTED_FILE, rg) as wr:
+    finished: list[EventWriter] = []
+    with contextlib.ExitStack() as stack:  # any failure removes every unpublished file
+        n_unw = samp["events"]
+        if n_unw > 0:
+            stats = UnweightingStats(max_weight=sampler.max_weight(rng_cal, samp["calibration_points"]))
+            weight = xs.value / n_unw
+            progress.stage("unweight", n_unw)
+            wr = stack.enter_context(EventWriter(out / UNWEIGHTED_FILE, rg))
             serial = job * JOB_STRIDE
             for x in sampler.unweighted(rng_unw, n_unw, stats):
                 wr.write(layout.batch(serial, np.full(x.shape[0], weight), proc.momenta(x, rng_unw)))
                 serial += x.shape[0]
                 progress.update(stats.accepted, f"efficiency {stats.efficiency:.1%}")
             progress.end(f"efficiency {stats.efficiency:.1%}, {stats.overflow_events} above w_max")
-            rec = dict(base, created=now(), weighting="unweighted",
-                       events={"count": wr.rows, "sum_weights_pb": wr.sum_w, "max_weight_pb": wr.max_w},
-                       unweighting=stats.as_dict())
-            files.append(wr.commit(rec))
-    n_w = samp["weighted_events"]
-    if n_w > 0:
-        progress.stage("weighted", n_w)
-        with EventWriter(out / WEIGHTED_FILE, rg) as wr:
+            wr.finish(dict(base, created=now(), weighting="unweighted",
+                           events={"count": wr.rows, "sum_weights_pb": wr.sum_w, "max_weight_pb": wr.max_w},
+                           unweighting=stats.as_dict()))
+            finished.append(wr)
+        n_w = samp["weighted_events"]
+        if n_w > 0:
+            progress.stage("weighted", n_w)
+            wr = stack.enter_context(EventWriter(out / WEIGHTED_FILE, rg))
             serial = job * JOB_STRIDE
             drawn = 0
             for x, w in sampler.weighted(rng_w, n_w):
@@ -159,7 +157,13 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
                 drawn += samp["chunk"]
                 progress.update(min(drawn, n_w))
             progress.end(f"{wr.rows} events, sum of weights {wr.sum_w:.5e} pb")
-            rec = dict(base, created=now(), weighting="weighted",
-                       events={"count": wr.rows, "trials": n_w, "sum_weights_pb": wr.sum_w, "max_weight_pb": wr.max_w})
-            files.append(wr.commit(rec))
+            wr.finish(dict(base, created=now(), weighting="weighted",
+                           events={"count": wr.rows, "trials": n_w, "sum_weights_pb": wr.sum_w,
+                                   "max_weight_pb": wr.max_w}))
+            finished.append(wr)
+        # the run's files appear together; a file of a kind this run did not make is stale
+        for name in (UNWEIGHTED_FILE, WEIGHTED_FILE):
+            if all(w.path.name != name for w in finished):
+                (out / name).unlink(missing_ok=True)
+        files = [w.publish() for w in finished]
     return RunResult(out, xs, stats, files, base)

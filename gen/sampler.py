@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 import numpy as np
 import vegas
@@ -104,7 +104,6 @@ class UnweightingStats:
     sum_w2: float = 0.0
     overflow_events: int = 0
     overflow_excess: float = 0.0  # sum over trials of (w - w_max) where positive
-    extras: dict = field(default_factory=dict)
 
     @property
     def efficiency(self) -> float:

@@ -70,7 +70,9 @@ class EventWriter:
     """Streams record batches into a Parquet file; the file appears only when `commit` runs.
 
     Use as a context manager: leaving the block by an exception removes the temporary file, so a
-    failed or killed run leaves nothing that looks like a complete file.
+    failed or killed run leaves nothing that looks like a complete file. `finish` completes the
+    temporary file; `publish` renames it into place, so that several files of one run can appear
+    together (see `gen.run`); `abort` removes an unpublished file.
     """
 
     def __init__(self, path: str | Path, row_group_events: int):
@@ -82,6 +84,7 @@ class EventWriter:
         self.rows = 0
         self.sum_w = 0.0
         self.max_w = 0.0
+        self._finished = self._published = False
         try:
             self.path.parent.mkdir(parents=True, exist_ok=True)
             self._writer = pq.ParquetWriter(
@@ -112,20 +115,35 @@ class EventWriter:
                 raise OutputError(f"{self.path}: writing failed: {exc.strerror or exc}") from None
             self._pending, self._pending_rows = [], 0
 
-    def commit(self, record: dict[str, Any]) -> Path:
-        """Write the run record, close and rename into place."""
+    def finish(self, record: dict[str, Any]) -> None:
+        """Write the run record and close the (still temporary) file."""
         self._flush()
         key = schema_doc()["metadata_key"]
-        self._writer.add_key_value_metadata({key: json.dumps(record, default=_jsonable)})
-        self._writer.close()
+        try:
+            self._writer.add_key_value_metadata({key: json.dumps(record, default=_jsonable)})
+            self._writer.close()
+        except OSError as exc:
+            raise OutputError(f"{self.path}: writing failed: {exc.strerror or exc}") from None
         self._writer = None
+        self._finished = True
+
+    def publish(self) -> Path:
+        """Rename the finished file into place (atomic on one file system)."""
         try:
             os.replace(self.tmp, self.path)
         except OSError as exc:
             raise OutputError(f"{self.path}: cannot move the finished file into place: {exc.strerror or exc}") from None
+        self._published = True
         return self.path
 
+    def commit(self, record: dict[str, Any]) -> Path:
+        """finish, then publish."""
+        self.finish(record)
+        return self.publish()
+
     def abort(self) -> None:
+        if self._published:
+            return
         if self._writer is not None:
             try:
                 self._writer.close()
@@ -138,7 +156,7 @@ class EventWriter:
         return self
 
     def __exit__(self, exc_type, exc, tb) -> None:
-        if exc_type is not None or self._writer is not None:
+        if exc_type is not None or not self._finished:
             self.abort()
 
 

@@ -14,7 +14,6 @@ from gen.card import parse_card
 from gen.run import UNWEIGHTED_FILE, WEIGHTED_FILE
 
 from conftest import card
-import references as ref
 
 SAMPLING = "events = 20000\nweighted_events = 20000\nseed = 11\nchunk = 8000"
 INTEG = "[integration]\nwarmup_iterations = 4\niterations = 6\npoints_per_iteration = 10000\n"
@@ -175,3 +174,25 @@ def test_readers_of_the_ecosystem_read_the_file_without_our_code(samples):
     # the run record sits in the file's key-value metadata, which stock readers expose
     assert b"gen.run" in pq.read_metadata(path).metadata
     assert "gen.run" in pl.read_parquet_metadata(path)
+
+
+def test_a_failure_in_the_weighted_pass_publishes_neither_file(tmp_path, monkeypatch):
+    from gen import sampler
+
+    def failing(self, rng, n):
+        raise OSError(28, "No space left on device")
+        yield  # pragma: no cover
+
+    monkeypatch.setattr(sampler.MapSampler, "weighted", failing)
+    with pytest.raises(OSError):
+        gen.run(parse_card(CASES["scalar"], "s.toml"), folder=tmp_path)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_a_rerun_replaces_the_folder_contents_consistently(tmp_path):
+    gen.run(parse_card(CASES["scalar"], "s.toml"), folder=tmp_path)
+    assert {p.name for p in tmp_path.iterdir()} == {UNWEIGHTED_FILE, WEIGHTED_FILE}
+    only_unweighted = CASES["scalar"].replace("weighted_events = 20000", "weighted_events = 0")
+    gen.run(parse_card(only_unweighted, "s.toml").with_overrides(seed=99), folder=tmp_path)
+    assert {p.name for p in tmp_path.iterdir()} == {UNWEIGHTED_FILE}
+    assert gen.read_run(tmp_path / UNWEIGHTED_FILE)["seed"] == 99

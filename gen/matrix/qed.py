@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
 
 from ..constants import ALPHA_0
 from .registry import Model, Param, ProcessSpec
