@@ -1,6 +1,7 @@
 """Benchmark: unweighted e+e- -> mu+mu- events to Parquet, end to end and by bare parts.
 
-Run as `python -m gen.benchmark` (add `--sizes 100000 1000000 10000000` for the memory check).
+Run as `python -m gen.benchmark` (add `--sizes 100000 1000000 10000000` for the memory check;
+`--dask 4000000` measures the speed-up on 1 and 2 local Dask workers instead).
 For each size it starts a fresh Python process, so peak memory (max RSS) is that size's alone,
 and prints:
 
@@ -91,12 +92,66 @@ def _one(n: int, repeat: int) -> dict:
     return out
 
 
+def _dask(n: int, parts: int) -> None:
+    """Wall time of n unweighted events in `parts` parts on 1 and 2 local Dask workers (cluster
+    start timed apart), the same parts made one after another in this process, and the fixed
+    cost per part measured with many tiny parts."""
+    from dask.distributed import Client, LocalCluster
+
+    import dask
+    import gen
+    from gen.distributed import local_cluster_config, run_parts_on_dask
+    from gen.grid import Grid, make_grid
+    from gen.process import build_process
+
+    with tempfile.TemporaryDirectory() as tmp:
+        cfg = gen.parse_card(CARD.format(n=n), "benchmark.toml")
+        grid_path = make_grid(build_process(cfg), cfg).save(Path(tmp) / "grid.json")
+        grid = Grid.load(grid_path)
+        t0 = time.perf_counter()
+        for j in range(parts):
+            gen.run(cfg, folder=Path(tmp) / "seq", grid=grid, job=j, jobs=parts)
+        seq = time.perf_counter() - t0
+        print(f"no Dask, parts one after another: {n} events in {parts} parts: {seq:.2f} s ({n / seq:.0f} events/s)")
+        walls = {}
+        tiny = gen.parse_card(CARD.format(n=40 * 100), "benchmark.toml")
+        tiny_grid = make_grid(build_process(tiny), tiny).save(Path(tmp) / "tiny.json")
+        for workers in (1, 2):
+            t0 = time.perf_counter()
+            with dask.config.set(local_cluster_config()), LocalCluster(
+                    n_workers=workers, threads_per_worker=1, dashboard_address=None) as cl, Client(cl) as client:
+                start = time.perf_counter() - t0
+                client.run(lambda: __import__("gen.run"))  # the workers' own imports, not timed below
+                times = []
+                for r in range(3):
+                    folder = Path(tmp) / f"w{workers}-{r}"
+                    t0 = time.perf_counter()
+                    run_parts_on_dask(cfg, grid_path, parts, folder, client=client)
+                    times.append(time.perf_counter() - t0)
+                    for f in folder.glob("*"):
+                        f.unlink()
+                walls[workers] = statistics.median(times)
+                print(f"{workers} worker(s): {n} events in {parts} parts: {walls[workers]:.2f} s "
+                      f"({n / walls[workers]:.0f} events/s); cluster start {start:.2f} s")
+                if workers == 2:
+                    t0 = time.perf_counter()
+                    run_parts_on_dask(tiny, tiny_grid, 40, Path(tmp) / "tiny", client=client)
+                    per = (time.perf_counter() - t0) * workers / 40
+                    print(f"fixed cost per part (40 parts of 100 events on 2 workers): {per * 1e3:.0f} ms of worker time")
+        print(f"speed-up with 2 workers: {walls[1] / walls[2]:.2f} (medians of 3)")
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", type=int, nargs="+", default=[1_000_000])
     ap.add_argument("--repeat", type=int, default=3)
     ap.add_argument("--one", type=int, help=argparse.SUPPRESS)
+    ap.add_argument("--dask", type=int, metavar="N", help="instead: N events on 1 and 2 local Dask workers")
+    ap.add_argument("--parts", type=int, default=8, help="parts for --dask")
     args = ap.parse_args(argv)
+    if args.dask:
+        _dask(args.dask, args.parts)
+        return 0
     if args.one:
         print(json.dumps(_one(args.one, args.repeat)))
         return 0

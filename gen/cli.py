@@ -23,33 +23,149 @@ def _fmt_sigma(value: float, error: float) -> str:
     return f"{value:.6g} ± {error:.3g} pb  ({rel})"
 
 
+def _print_warnings(caught) -> None:
+    for w in caught:
+        print(f"gen: warning: {w.message}", file=sys.stderr)
+
+
+def _cmd_adapt(args) -> int:
+    from .card import load_card
+    from .grid import make_grid
+    from .process import build_process
+    from .progress import Progress
+
+    cfg = load_card(args.card).with_overrides(seed=args.seed)
+    progress = Progress(enabled=None if not args.quiet else False)
+    grid = make_grid(build_process(cfg), cfg, progress)
+    path = grid.save(args.output)
+    if not args.quiet:
+        xs = grid.cross_section
+        print(f"  σ           {_fmt_sigma(xs.value, xs.error)}   chi2/dof {xs.chi2_dof:.2f}, Q {xs.q:.2f}")
+        print(f"  w_max       {grid.max_weight:.6g} pb from {cfg.sampling['calibration_points']} calibration points")
+        print(f"  wrote       {path}")
+    return 0
+
+
+def _grid_for_parts(cfg, args, folder: Path, progress):
+    """The grid of a multi-part run: --grid, else the folder's own grid.json, else adapt one there."""
+    from .grid import Grid, GridError, make_grid
+    from .process import build_process
+
+    if args.grid:
+        return Grid.load(args.grid), Path(args.grid)
+    path = folder / "grid.json"
+    if path.exists():
+        try:
+            grid = Grid.load(path)
+            grid.check_card(cfg, cfg.source)
+            return grid, path  # resume: the parts already made used this grid
+        except GridError:
+            pass
+    grid = make_grid(build_process(cfg), cfg, progress)
+    return grid, grid.save(path)
+
+
 def _cmd_run(args) -> int:
     from .card import load_card
+    from .grid import Grid
     from .progress import Progress
-    from .run import run
+    from .run import default_folder, run
 
-    cfg = load_card(args.card).with_overrides(events=args.events, seed=args.seed, folder=args.output)
+    overrides = {"events": args.events, "seed": args.seed}
+    cfg = load_card(args.card).with_overrides(**overrides, folder=args.output)
+    folder = default_folder(cfg)
     show = not args.quiet
+    distributed = args.workers is not None or args.scheduler is not None
+    if args.job is not None and args.grid is None:
+        raise UserError("--job needs --grid: adapt once with `gen adapt CARD -o GRID`, then run each part from it")
+    if args.job is not None and distributed:
+        raise UserError("--job runs one part here; --workers/--scheduler run all parts: use one or the other")
+    jobs = args.jobs if args.jobs is not None else (args.workers if args.workers else 1)
+    if args.scheduler and args.jobs is None:
+        raise UserError("--scheduler needs --jobs N, the number of parts to make")
+    if jobs < 1 or (args.job is not None and not 0 <= args.job < jobs):
+        raise UserError(f"--job must be in 0..{jobs - 1} and --jobs at least 1 (found --job {args.job}, --jobs {jobs})")
+    if args.workers is not None and args.workers < 1:
+        raise UserError(f"--workers must be at least 1, found {args.workers}")
     if show:
         print(f"gen {__version__} ▸ {' '.join(p.name for p in cfg.incoming)} → "
               f"{' '.join(p.name for p in cfg.outgoing)}  [{cfg.model}]  card {cfg.source}")
     progress = Progress(enabled=None if show else False)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        res = run(cfg, progress=progress)
-    for w in caught:
-        print(f"gen: warning: {w.message}", file=sys.stderr)
+        if args.job is None and jobs == 1 and not distributed and args.grid is None:
+            res = run(cfg, progress=progress)
+            _print_warnings(caught)
+            if show:
+                _report_run(res)
+            return 0
+        if args.job is not None:
+            res = run(cfg, progress=progress, grid=Grid.load(args.grid), job=args.job, jobs=jobs)
+            _print_warnings(caught)
+            if show:
+                if res.skipped:
+                    print(f"  part {args.job} of {jobs} is already complete in {folder}; skipped")
+                else:
+                    _report_run(res)
+            return 0
+        grid, grid_path = _grid_for_parts(cfg, args, folder, progress)
+        if distributed:
+            from .distributed import run_parts_on_dask
+
+            done = run_parts_on_dask(cfg, grid_path, jobs, folder, workers=args.workers, scheduler=args.scheduler,
+                                     overrides=overrides, progress=progress)
+            skipped = sum(d["skipped"] for d in done)
+        else:
+            skipped = 0
+            for j in range(jobs):
+                res = run(cfg, progress=progress, grid=grid, job=j, jobs=jobs)
+                skipped += res.skipped
+        _print_warnings(caught)
     if show:
-        xs = res.cross_section
-        print(f"  sqrt(s)     {res.record['collider']['sqrt_s_GeV']:.6g} GeV")
-        print(f"  σ           {_fmt_sigma(xs.value, xs.error)}   chi2/dof {xs.chi2_dof:.2f}, Q {xs.q:.2f}")
-        st = res.unweighting
-        if st is not None:
-            est, err = st.estimate
-            print(f"  unweighted  {st.accepted} events, efficiency {st.efficiency:.1%}, "
-                  f"{st.overflow_events} above w_max carrying {st.overflow_share:.2%} of σ "
-                  f"(sampling pass: {est:.6g} ± {err:.2g} pb)")
-        for f in res.files:
+        print(f"  parts       {jobs} in {folder} ({skipped} already complete, skipped); grid {grid_path}")
+        _report_combined(folder)
+    return 0
+
+
+def _report_run(res) -> None:
+    xs = res.cross_section
+    print(f"  sqrt(s)     {res.record['collider']['sqrt_s_GeV']:.6g} GeV")
+    print(f"  σ           {_fmt_sigma(xs.value, xs.error)}   chi2/dof {xs.chi2_dof:.2f}, Q {xs.q:.2f}")
+    st = res.unweighting
+    if st is not None:
+        est, err = st.estimate
+        print(f"  unweighted  {st.accepted} events, efficiency {st.efficiency:.1%}, "
+              f"{st.overflow_events} above w_max carrying {st.overflow_share:.2%} of σ "
+              f"(sampling pass: {est:.6g} ± {err:.2g} pb)")
+    for f in res.files:
+        print(f"  wrote       {f}")
+
+
+def _report_combined(folder) -> None:
+    from .batch import check_parts, collect_parts, combine
+
+    parts = collect_parts([folder])
+    problems = check_parts(parts)
+    for p in problems:
+        print(f"  ! {p}")
+    if "unweighted" in parts and not problems:
+        c = combine(parts["unweighted"])
+        print(f"  σ combined  {_fmt_sigma(c['value_pb'], c['error_pb'])} from {c['parts']} parts "
+              f"(grid {c['adaptation']['value_pb']:.6g} ± {c['adaptation']['error_pb']:.2g}, "
+              f"sampling {c['sampling']['value_pb']:.6g} ± {c['sampling']['error_pb']:.2g} pb)")
+        print(f"  unweighted  {c['events']} events, efficiency {c['efficiency']:.1%}")
+
+
+def _cmd_merge(args) -> int:
+    from .batch import merge
+    from .progress import Progress
+
+    files, combined = merge(args.parts, args.output, Progress(enabled=None if not args.quiet else False))
+    if not args.quiet:
+        if combined:
+            print(f"  σ combined  {_fmt_sigma(combined['value_pb'], combined['error_pb'])} from "
+                  f"{combined['parts']} parts, {combined['events']} unweighted events")
+        for f in files:
             print(f"  wrote       {f}")
     return 0
 
@@ -66,20 +182,41 @@ def _summarize(path: Path) -> dict:
 
 
 def _cmd_info(args) -> int:
+    from .batch import check_parts, collect_parts, combine
     from .store import event_files
 
     infos = [_summarize(f) for f in event_files(args.path)]
+    parts = [i for i in infos if i["job"]["count"] > 1 and i["job"]["index"] is not None]
+    combined = None
+    problems: list[str] = []
+    if parts:
+        groups = collect_parts([args.path])
+        problems = check_parts(groups)
+        if "unweighted" in groups and not problems:
+            combined = combine(groups["unweighted"])
     if args.json:
-        json.dump({"files": infos}, sys.stdout, indent=2)
+        json.dump({"files": infos, "combined": combined, "problems": problems}, sys.stdout, indent=2)
         sys.stdout.write("\n")
         return 0
+    if parts:
+        print(f"{args.path}: {len(parts)} part files")
+        for p in problems:
+            print(f"  ! {p}")
+        if combined:
+            print(f"  σ combined  {_fmt_sigma(combined['value_pb'], combined['error_pb'])} from "
+                  f"{combined['parts']} parts (not merged; `gen merge` writes the sample)")
+            print(f"  unweighted  {combined['events']} events, efficiency {combined['efficiency']:.1%}")
+        for info in parts:
+            print(f"  part {info['job']['index']:>5} of {info['job']['count']}  {info['weighting']:<10} "
+                  f"{info['events']['count']:>9} events  {Path(info['path']).name}")
+        infos = [i for i in infos if i not in parts]
     for info in infos:
         xs = info["cross_section"]["total"]
         proc = info["process"]
         print(f"{info['path']}  ({info['weighting']}, schema {info['schema_version']}, {info['program']})")
         print(f"  process     {proc['label']}  [{proc['model']}], symmetry factor {proc['symmetry_factor']:g}")
         print(f"  sqrt(s)     {info['collider']['sqrt_s_GeV']:.6g} GeV")
-        print(f"  σ           {_fmt_sigma(xs['value_pb'], xs['error_pb'])}   chi2/dof {xs['chi2_per_dof']:.2f}")
+        print(f"  σ           {_fmt_sigma(xs['value_pb'], xs['error_pb'])}")
         ev = info["events"]
         print(f"  events      {ev['count']}, sum of weights {ev['sum_weights_pb']:.6g} pb, "
               f"largest weight {ev['max_weight_pb']:.4g} pb")
@@ -90,7 +227,10 @@ def _cmd_info(args) -> int:
         model = info["parameters"]["model"]
         print("  parameters  " + ", ".join(f"{k} = {v:.6g}" if isinstance(v, float) else f"{k} = {v}"
                                          for k, v in model.items()))
-        print(f"  seed {info['seed']}, job {info['job']['index']} of {info['job']['count']}, created {info['created']}")
+        job = info["job"]
+        where = (f"merged from {len(job['merged'])} parts" if "merged" in job
+                 else f"job {job['index']} of {job['count']}")
+        print(f"  seed {info['seed']}, {where}, created {info['created']}")
     return 0
 
 
@@ -111,13 +251,29 @@ def parser() -> argparse.ArgumentParser:
     ap = argparse.ArgumentParser(prog="gen", description="Leading-order event generation to Parquet.")
     ap.add_argument("--version", action="version", version=f"gen {__version__}")
     sub = ap.add_subparsers(dest="command", required=True)
+    a = sub.add_parser("adapt", help="adapt the vegas grid once and write it, for batch parts")
+    a.add_argument("card", help="run card (TOML)")
+    a.add_argument("-o", "--output", required=True, help="grid file to write (JSON)")
+    a.add_argument("--seed", type=int, help="random seed (overrides sampling.seed)")
+    a.add_argument("--quiet", action="store_true", help="print nothing but warnings and errors")
+    a.set_defaults(func=_cmd_adapt)
     r = sub.add_parser("run", help="integrate a card's process and write its event files")
     r.add_argument("card", help="run card (TOML)")
     r.add_argument("-o", "--output", help="run folder (default: the card's output.folder, else gen-runs/<card name>)")
-    r.add_argument("--events", type=int, help="unweighted events (overrides sampling.events)")
+    r.add_argument("--events", type=int, help="unweighted events in all (overrides sampling.events)")
     r.add_argument("--seed", type=int, help="random seed (overrides sampling.seed)")
     r.add_argument("--quiet", action="store_true", help="print nothing but warnings and errors")
+    r.add_argument("--grid", help="sample this adapted grid (from gen adapt) instead of adapting")
+    r.add_argument("--job", type=int, help="make only part JOB (0-based) of --jobs parts; needs --grid")
+    r.add_argument("--jobs", type=int, help="number of parts the sample is split into")
+    r.add_argument("--workers", type=int, help="make all parts on a local Dask cluster of this many workers")
+    r.add_argument("--scheduler", help="make all parts on the Dask scheduler at this address")
     r.set_defaults(func=_cmd_run)
+    m = sub.add_parser("merge", help="merge batch parts into one sample")
+    m.add_argument("parts", nargs="+", help="part files or folders of parts")
+    m.add_argument("-o", "--output", required=True, help="folder for the merged files")
+    m.add_argument("--quiet", action="store_true", help="print nothing but warnings and errors")
+    m.set_defaults(func=_cmd_merge)
     i = sub.add_parser("info", help="describe an event file or a run folder")
     i.add_argument("path")
     i.add_argument("--json", action="store_true", help="machine-readable output")

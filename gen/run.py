@@ -1,15 +1,17 @@
-"""One run: card -> process -> vegas adaptation -> unweighted and weighted event files.
+"""One run or one part of a batch: card -> process -> grid -> unweighted and weighted event files.
 
-`run(cfg)` is the whole path behind `gen run`. Random streams: one `SeedSequence` of the card's
-seed and the job index spawns independent generators for adaptation, the maximum-weight
-calibration, the unweighted pass and the weighted pass, so that changing one count never changes
-the events of another pass.
+`run(cfg)` is the whole path behind `gen run`: it adapts a grid (or takes the one it is given),
+then samples it. A batch part (`job` = I of `jobs` = N) samples its share of the card's events
+from a shared grid without re-adapting, with random streams derived from the card's seed and I
+(`grid.streams`), and writes files named with its index. Files of a run appear together, only
+once every pass has succeeded.
 """
 
 from __future__ import annotations
 
 import contextlib
 import datetime as _dt
+import os
 import warnings
 from dataclasses import dataclass
 from pathlib import Path
@@ -20,12 +22,14 @@ from . import __version__
 from .card import RunConfig
 from .errors import OutputError
 from .events import JOB_STRIDE, EventLayout
+from .grid import Grid, make_grid, physics_digest, streams
 from .process import TwoToTwo, build_process
 from .progress import Progress
-from .sampler import CrossSection, MapSampler, UnweightingStats, adapt
-from .store import EventWriter, schema_doc
+from .sampler import CrossSection, MapSampler, UnweightingStats
+from .store import EventWriter, read_run, schema_doc
 
-__all__ = ["run", "RunResult", "ConsistencyWarning", "UNWEIGHTED_FILE", "WEIGHTED_FILE", "default_folder"]
+__all__ = ["run", "RunResult", "ConsistencyWarning", "UNWEIGHTED_FILE", "WEIGHTED_FILE", "default_folder",
+           "part_name", "part_sizes", "part_complete"]
 
 UNWEIGHTED_FILE = "unweighted.parquet"
 WEIGHTED_FILE = "weighted.parquet"
@@ -42,6 +46,7 @@ class RunResult:
     unweighting: UnweightingStats | None
     files: list[Path]
     record: dict
+    skipped: bool = False
 
 
 def default_folder(cfg: RunConfig) -> Path:
@@ -50,32 +55,44 @@ def default_folder(cfg: RunConfig) -> Path:
     return Path("gen-runs") / Path(cfg.source).stem
 
 
+def part_name(kind: str, job: int | None) -> str:
+    """File name of a run's ('unweighted' or 'weighted') file; parts carry their index."""
+    return f"{kind}.parquet" if job is None else f"{kind}-part{job:05d}.parquet"
+
+
+def part_sizes(total: int, jobs: int) -> list[int]:
+    """Events of each part: the card's total split as evenly as possible, earlier parts first."""
+    base, extra = divmod(total, jobs)
+    return [base + (1 if i < extra else 0) for i in range(jobs)]
+
+
 def _layout(proc: TwoToTwo) -> EventLayout:
-    sp = proc.species
     colour = np.zeros(4, np.int32)
     anticolour = np.zeros(4, np.int32)
     if proc.spec.colour is not None:
-        # canonical tags -> user order
-        for user_i, canon_i in enumerate(proc.canonical):
+        for user_i, canon_i in enumerate(proc.canonical):  # canonical tags -> user order
             colour[user_i], anticolour[user_i] = proc.spec.colour.tags[canon_i]
-    alpha = float(proc.params.get("alpha", 0.0))
     return EventLayout(
-        pdg=np.array([p.pdg for p in sp], np.int32),
+        pdg=np.array([p.pdg for p in proc.species], np.int32),
         roles=["incoming", "incoming", "outgoing", "outgoing"],
         parent_first=np.array([-1, -1, 0, 0], np.int16),
         parent_last=np.array([-1, -1, 1, 1], np.int16),
         colour=colour, anticolour=anticolour,
         mass=np.array(proc.masses, np.float64),
-        subprocess=_label(proc.cfg),
-        scale=proc.sqrt_s, alpha_em=alpha)
+        subprocess=_label(proc.cfg), scale=proc.sqrt_s, alpha_em=float(proc.params.get("alpha", 0.0)))
 
 
-def _record(proc: TwoToTwo, xs: CrossSection, job: int, jobs: int) -> dict:
+def _label(cfg: RunConfig) -> str:
+    return f"{' '.join(p.name for p in cfg.incoming)} -> {' '.join(p.name for p in cfg.outgoing)}"
+
+
+def _record(proc: TwoToTwo, grid: Grid, job: int | None, jobs: int) -> dict:
     cfg = proc.cfg
+    xs = grid.cross_section
     return {
         "schema_version": schema_doc()["version"],
         "program": f"gen {__version__}",
-        "card": {"path": cfg.source, "text": cfg.text},
+        "card": {"path": cfg.source, "text": cfg.text, "digest": physics_digest(cfg), "sampling": dict(cfg.sampling)},
         "process": {"model": cfg.model, "incoming": [p.name for p in cfg.incoming],
                     "outgoing": [p.name for p in cfg.outgoing], "label": _label(cfg),
                     "symmetry_factor": proc.spec.symmetry, "source": " ".join(proc.spec.source.split())},
@@ -84,58 +101,92 @@ def _record(proc: TwoToTwo, xs: CrossSection, job: int, jobs: int) -> dict:
         "parameters": {"model": dict(proc.params),
                        "masses_GeV": {p.name: m for p, m in zip(proc.species, proc.masses)},
                        "widths_GeV": {p.name: cfg.widths.get(abs(p.pdg), p.width) for p in proc.species}},
-        "cross_section": {"total": xs.as_dict(),
+        "cross_section": {"total": xs.as_dict(), "method": "vegas adaptation of the grid",
                           "by_subprocess": {_label(cfg): {"value_pb": xs.value, "error_pb": xs.error}}},
+        "grid": {"checksum": grid.checksum, "max_weight_pb": grid.max_weight},
         "seed": cfg.sampling["seed"],
-        "job": {"index": job, "count": jobs},
+        "job": {"index": 0 if job is None else job, "count": jobs},
         "integration": dict(cfg.integration),
     }
 
 
-def _label(cfg: RunConfig) -> str:
-    return f"{' '.join(p.name for p in cfg.incoming)} -> {' '.join(p.name for p in cfg.outgoing)}"
+def part_complete(folder: Path, cfg: RunConfig, grid: Grid, job: int, jobs: int) -> bool:
+    """True when part `job` of `jobs` is in `folder`, complete and made from this card and grid."""
+    for kind, total in (("unweighted", cfg.sampling["events"]), ("weighted", cfg.sampling["weighted_events"])):
+        path = folder / part_name(kind, job)
+        if total == 0:
+            continue
+        if not path.exists():
+            return False
+        try:
+            rec = read_run(path)
+        except OutputError:
+            return False
+        if (rec.get("card", {}).get("digest") != physics_digest(cfg) or rec.get("grid", {}).get("checksum") != grid.checksum
+                or rec.get("job") != {"index": job, "count": jobs} or rec.get("card", {}).get("sampling") != cfg.sampling):
+            return False
+    return True
+
+
+def _remove_stale_partials(folder: Path, names: list[str]) -> None:
+    """Remove temporary files of these names left by processes that no longer run (a killed job)."""
+    for name in names:
+        for tmp in folder.glob(f".{name}.partial-*"):
+            try:
+                pid = int(tmp.name.rsplit("-", 1)[1])
+                os.kill(pid, 0)
+            except (ValueError, ProcessLookupError):
+                tmp.unlink(missing_ok=True)
+            except PermissionError:  # alive, owned by someone else
+                pass
 
 
 def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | None = None,
-        job: int = 0, jobs: int = 1) -> RunResult:
-    """Integrate the card's process and write its event files; returns what was done."""
+        grid: Grid | None = None, job: int | None = None, jobs: int = 1) -> RunResult:
+    """Integrate the card's process (or take `grid`) and write its event files.
+
+    With `job` given, write part `job` of `jobs` from the grid, skipping it when it is already
+    complete in the folder.
+    """
     progress = progress or Progress(enabled=False)
     out = Path(folder) if folder is not None else default_folder(cfg)
     if out.exists() and not out.is_dir():
         raise OutputError(f"{out}: exists and is not a folder; choose another output folder (gen run -o DIR)")
     proc = build_process(cfg)
-    seeds = np.random.SeedSequence(cfg.sampling["seed"], spawn_key=(job,)).spawn(4)
-    rng_adapt, rng_cal, rng_unw, rng_w = (np.random.default_rng(s) for s in seeds)
+    if grid is None:
+        grid = make_grid(proc, cfg, progress)
+    else:
+        grid.check_card(cfg, cfg.source)
+    xs = grid.cross_section
+    if job is not None and part_complete(out, cfg, grid, job, jobs):
+        return RunResult(out, xs, None, [], {}, skipped=True)
     integ = cfg.integration
-    n_it = integ["warmup_iterations"] + integ["iterations"]
-    progress.stage("adapt", n_it)
-
-    def on_it(i, total, value, error):
-        progress.update(i, f"σ = {value:.5e} ± {error:.2e} pb")
-
-    xs, amap = adapt(proc.weights, proc.ndim, rng_adapt, warmup=integ["warmup_iterations"],
-                     iterations=integ["iterations"], points=integ["points_per_iteration"], on_iteration=on_it)
-    progress.end(f"σ = {xs.value:.5e} ± {xs.error:.2e} pb")
     if not xs.consistent(integ["consistency_min_q"]):
         warnings.warn(f"the vegas iterations disagree (chi2/dof = {xs.chi2_dof:.2f}, Q = {xs.q:.3g} < "
                       f"integration.consistency_min_q = {integ['consistency_min_q']}); raise "
                       "integration.warmup_iterations or points_per_iteration", ConsistencyWarning, stacklevel=2)
     samp = cfg.sampling
-    sampler = MapSampler(proc.weights, amap, proc.ndim, samp["chunk"])
+    index = 0 if job is None else job
+    rng_unw, rng_w = streams(samp["seed"], index)
+    sampler = MapSampler(proc.weights, grid.adaptive_map(), proc.ndim, samp["chunk"])
     layout = _layout(proc)
-    base = _record(proc, xs, job, jobs)
+    base = _record(proc, grid, job, jobs)
+    names = {kind: part_name(kind, job) for kind in ("unweighted", "weighted")}
+    if out.is_dir():
+        _remove_stale_partials(out, list(names.values()))
     stats = None
     rg = cfg.output["row_group_events"]
     now = lambda: _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")  # noqa: E731
     finished: list[EventWriter] = []
+    n_unw = part_sizes(samp["events"], jobs)[index]
+    n_w = part_sizes(samp["weighted_events"], jobs)[index]
     with contextlib.ExitStack() as stack:  # any failure removes every unpublished file
-        n_unw = samp["events"]
         if n_unw > 0:
-            stats = UnweightingStats(max_weight=sampler.max_weight(rng_cal, samp["calibration_points"]))
-            weight = xs.value / n_unw
+            stats = UnweightingStats(max_weight=grid.max_weight)
+            weight = xs.value / samp["events"]
             progress.stage("unweight", n_unw)
-            wr = stack.enter_context(EventWriter(out / UNWEIGHTED_FILE, rg))
-            serial = job * JOB_STRIDE
+            wr = stack.enter_context(EventWriter(out / names["unweighted"], rg))
+            serial = index * JOB_STRIDE
             for x in sampler.unweighted(rng_unw, n_unw, stats):
                 wr.write(layout.batch(serial, np.full(x.shape[0], weight), proc.momenta(x, rng_unw)))
                 serial += x.shape[0]
@@ -145,11 +196,10 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
                            events={"count": wr.rows, "sum_weights_pb": wr.sum_w, "max_weight_pb": wr.max_w},
                            unweighting=stats.as_dict()))
             finished.append(wr)
-        n_w = samp["weighted_events"]
         if n_w > 0:
             progress.stage("weighted", n_w)
-            wr = stack.enter_context(EventWriter(out / WEIGHTED_FILE, rg))
-            serial = job * JOB_STRIDE
+            wr = stack.enter_context(EventWriter(out / names["weighted"], rg))
+            serial = index * JOB_STRIDE
             drawn = 0
             for x, w in sampler.weighted(rng_w, n_w):
                 wr.write(layout.batch(serial, w, proc.momenta(x, rng_w)))
@@ -162,7 +212,7 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
                                    "max_weight_pb": wr.max_w}))
             finished.append(wr)
         # the run's files appear together; a file of a kind this run did not make is stale
-        for name in (UNWEIGHTED_FILE, WEIGHTED_FILE):
+        for name in names.values():
             if all(w.path.name != name for w in finished):
                 (out / name).unlink(missing_ok=True)
         files = [w.publish() for w in finished]

@@ -126,6 +126,7 @@ class UnweightingStats:
     def as_dict(self) -> dict:
         est, err = self.estimate
         return {"max_weight_pb": self.max_weight, "trials": self.trials, "accepted": self.accepted,
+                "sum_w_pb": self.sum_w, "sum_w2_pb2": self.sum_w2,
                 "efficiency": self.efficiency, "overflow_events": self.overflow_events,
                 "overflow_share": self.overflow_share, "sampling_estimate_pb": est,
                 "sampling_error_pb": err}
@@ -173,7 +174,7 @@ class MapSampler:
             stats.trials += w.size
             stats.accepted += idx.size
             stats.sum_w += float(w.sum())
-            stats.sum_w2 += float(np.dot(w, w))
+            stats.sum_w2 += float((w * w).sum())  # not np.dot: BLAS threads would spin on the other core
             over = w > wmax
             if over.any():
                 stats.overflow_events += int(over.sum())
