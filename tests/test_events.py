@@ -196,3 +196,22 @@ def test_a_rerun_replaces_the_folder_contents_consistently(tmp_path):
     gen.run(parse_card(only_unweighted, "s.toml").with_overrides(seed=99), folder=tmp_path)
     assert {p.name for p in tmp_path.iterdir()} == {UNWEIGHTED_FILE}
     assert gen.read_run(tmp_path / UNWEIGHTED_FILE)["seed"] == 99
+
+
+def test_disk_full_is_reported_clearly_and_leaves_nothing(tmp_path, monkeypatch):
+    def full(self, *a, **k):
+        raise OSError(28, "No space left on device")
+
+    monkeypatch.setattr(pq.ParquetWriter, "write_table", full)
+    with pytest.raises(gen.OutputError, match="unweighted.parquet: writing failed: No space left on device"):
+        gen.run(parse_card(CASES["scalar"], "s.toml"), folder=tmp_path)
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_an_unwritable_output_folder_is_reported_clearly(tmp_path):
+    blocker = tmp_path / "a-file"
+    blocker.write_text("not a folder")
+    with pytest.raises(gen.OutputError, match="cannot write the event file"):
+        gen.run(parse_card(CASES["scalar"], "s.toml"), folder=blocker / "run")
+    with pytest.raises(gen.OutputError, match="exists and is not a folder"):
+        gen.run(parse_card(CASES["scalar"], "s.toml"), folder=blocker)
