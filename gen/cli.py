@@ -234,6 +234,40 @@ def _cmd_info(args) -> int:
     return 0
 
 
+def _cmd_validate(args) -> int:
+    from .store import event_files
+    from .validate import Thresholds, validate
+
+    th = Thresholds(p_min=args.p_min, pull_max=args.pull_max, sigma_max=args.sigma_max)
+    files = [f for f in event_files(args.path) if "-part" not in f.name]
+    reports = [validate(f, out=args.out, bins=args.bins, thresholds=th, plots=not args.no_plots) for f in files]
+    if args.json:
+        json.dump({"reports": reports}, sys.stdout, indent=2)
+        sys.stdout.write("\n")
+    else:
+        for r in reports:
+            xs = r["cross_section"]
+            print(f"{r['file']}  ({r['weighting']}, {r['events']} events)  →  {r['verdict'].upper()}")
+            print(f"  reference   {r['reference']['name']}")
+            print(f"  σ           sample {xs['sample_pb']:.6g} ± {xs['sample_error_pb']:.2g} pb, "
+                  f"reference {xs['reference_pb']:.6g} pb, pull {xs['pull']:+.2f}  {'ok' if xs['pass'] else 'FAIL'}")
+            for o in r["observables"]:
+                print(f"  {o['name']:<13} chi2/dof {o['chi2']:7.1f}/{o['dof']:<3} p = {o['p_value']:<9.3g} "
+                      f"largest pull {o['max_pull']:4.1f}  {'ok' if o['pass'] else 'FAIL'}")
+            print(f"  report      {r['report']}")
+    return 0 if all(r["verdict"] == "pass" for r in reports) else 1
+
+
+def _cmd_plot(args) -> int:
+    from .plots import quick_look
+    from .store import event_files
+
+    for f in event_files(args.path):
+        for png in quick_look(f, out=args.out, bins=args.bins):
+            print(f"  wrote       {png}")
+    return 0
+
+
 def _cmd_processes(args) -> int:
     from .matrix import MODELS
 
@@ -274,6 +308,22 @@ def parser() -> argparse.ArgumentParser:
     m.add_argument("-o", "--output", required=True, help="folder for the merged files")
     m.add_argument("--quiet", action="store_true", help="print nothing but warnings and errors")
     m.set_defaults(func=_cmd_merge)
+    v = sub.add_parser("validate", help="compare a sample with its analytic reference; exit 1 when it fails")
+    v.add_argument("path", help="an event file or a run folder")
+    v.add_argument("--out", help="folder for the report and plots (default: <run folder>/validation)")
+    v.add_argument("--bins", type=int, default=20, help="bins per observable (default 20)")
+    v.add_argument("--p-min", type=float, default=1e-4, help="smallest accepted chi-square p-value (default 1e-4)")
+    v.add_argument("--pull-max", type=float, default=6.0, help="largest accepted bin pull (default 6)")
+    v.add_argument("--sigma-max", type=float, default=5.0,
+                   help="largest accepted deviation of the total cross-section, in standard deviations (default 5)")
+    v.add_argument("--no-plots", action="store_true", help="write the report only")
+    v.add_argument("--json", action="store_true", help="print the reports as JSON")
+    v.set_defaults(func=_cmd_validate)
+    q = sub.add_parser("plot", help="quick-look histograms of the outgoing particles")
+    q.add_argument("path", help="an event file or a run folder")
+    q.add_argument("--out", help="folder for the PNG files (default: <run folder>/plots)")
+    q.add_argument("--bins", type=int, default=40)
+    q.set_defaults(func=_cmd_plot)
     i = sub.add_parser("info", help="describe an event file or a run folder")
     i.add_argument("path")
     i.add_argument("--json", action="store_true", help="machine-readable output")

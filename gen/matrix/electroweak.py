@@ -133,8 +133,10 @@ for _f in ("e-", "mu-", "tau-", "d", "u", "s", "c", "b"):
     _PROC.append(ProcessSpec(
         "electroweak", ("e-", "e+"), (_f, _anti), make_fermion_pair(_f), make_fermion_pair.__doc__,
         poles="forward" if _f == "e-" else "none", pole_power=2, needs_angular_cut=_f == "e-",
-        colour=_QUARK_FLOW if species(_f).is_quark else None))
-_PROC.append(ProcessSpec("electroweak", ("e-", "e+"), ("Z", "H"), higgs_strahlung, higgs_strahlung.__doc__))
+        colour=_QUARK_FLOW if species(_f).is_quark else None,
+        reference=None if _f == "e-" else f"electroweak.gamma_z.{_f}"))
+_PROC.append(ProcessSpec("electroweak", ("e-", "e+"), ("Z", "H"), higgs_strahlung, higgs_strahlung.__doc__,
+                         reference="electroweak.higgs_strahlung"))
 
 MODEL = Model(
     name="electroweak",

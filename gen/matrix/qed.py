@@ -123,20 +123,23 @@ def _resolve(over):
 
 
 _PROC = [
-    ProcessSpec("qed", ("e-", "e+"), ("mu-", "mu+"), pair_production, pair_production.__doc__),
-    ProcessSpec("qed", ("e-", "e+"), ("tau-", "tau+"), pair_production, pair_production.__doc__),
+    ProcessSpec("qed", ("e-", "e+"), ("mu-", "mu+"), pair_production, pair_production.__doc__,
+                reference="qed.lepton_pair"),
+    ProcessSpec("qed", ("e-", "e+"), ("tau-", "tau+"), pair_production, pair_production.__doc__,
+                reference="qed.lepton_pair"),
     ProcessSpec("qed", ("e-", "e+"), ("e-", "e+"), bhabha, bhabha.__doc__, poles="forward",
-                pole_power=2, needs_angular_cut=True),
+                pole_power=2, needs_angular_cut=True, reference="qed.bhabha"),
     ProcessSpec("qed", ("e-", "e-"), ("e-", "e-"), moller, moller.__doc__, poles="both",
-                pole_power=2, needs_angular_cut=True),
+                pole_power=2, needs_angular_cut=True, reference="qed.moller"),
     ProcessSpec("qed", ("e-", "mu-"), ("e-", "mu-"), lepton_scattering, lepton_scattering.__doc__,
-                poles="forward", pole_power=2, needs_angular_cut=True),
+                poles="forward", pole_power=2, needs_angular_cut=True, reference="qed.electron_muon"),
     ProcessSpec("qed", ("e-", "gamma"), ("e-", "gamma"), compton, compton.__doc__, poles="backward",
-                pole_power=1, pole_gap=_gap_compton),
+                pole_power=1, pole_gap=_gap_compton, reference="qed.compton"),
     ProcessSpec("qed", ("e-", "e+"), ("gamma", "gamma"), annihilation_to_photons,
-                annihilation_to_photons.__doc__, poles="both", pole_power=1, pole_gap=_gap_initial),
+                annihilation_to_photons.__doc__, poles="both", pole_power=1, pole_gap=_gap_initial,
+                reference="qed.two_photon_annihilation"),
     ProcessSpec("qed", ("gamma", "gamma"), ("e-", "e+"), photon_fusion, photon_fusion.__doc__,
-                poles="both", pole_power=1, pole_gap=_gap_final),
+                poles="both", pole_power=1, pole_gap=_gap_final, reference="qed.photon_fusion"),
 ]
 
 MODEL = Model(

@@ -60,6 +60,8 @@ class ProcessSpec:
     pole_gap: Callable[[float, tuple[float, float, float, float]], float] | None = None
     needs_angular_cut: bool = False
     colour: ColourFlow | None = None
+    #: key of the independent analytic reference in `gen.references` used by `gen validate`
+    reference: str | None = None
 
     @property
     def symmetry(self) -> float:

@@ -41,5 +41,5 @@ MODEL = Model(
     resolve=_resolve,
     masses=lambda par: {"phi": par["mass"]},
     processes=(ProcessSpec("scalar", ("phi", "phi"), ("phi", "phi"), scalar_scattering,
-                           scalar_scattering.__doc__),),
+                           scalar_scattering.__doc__, reference="scalar.scattering"),),
 )

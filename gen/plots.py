@@ -1,0 +1,122 @@
+"""PNG plots, drawn headless: validation (sample against reference, with a pull panel) and quick looks.
+
+The look: sample as dark points with error bars, the reference as an amber step line over a
+pale band of the expected statistical spread, pulls as bars coloured by size. Plotting is an
+optional extra: `pip install 'gen[plots]'`.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+
+from .errors import UserError
+
+__all__ = ["validation_plot", "quick_look"]
+
+INK = "#1f2a36"
+AMBER = "#d98e04"
+BAND = "#f6dfa8"
+GOOD = "#5b8c5a"
+BAD = "#b33f40"
+
+
+def _pyplot():
+    try:
+        import matplotlib
+
+        matplotlib.use("Agg")
+        import matplotlib.pyplot as plt
+    except ImportError:
+        raise UserError("plots need matplotlib: install the extra with `pip install 'gen[plots]'`") from None
+    return plt
+
+
+def validation_plot(report: dict, item: dict, path: Path) -> Path:
+    plt = _pyplot()
+    edges = np.asarray(item["edges"])
+    width = np.diff(edges)
+    centre = 0.5 * (edges[1:] + edges[:-1])
+    val = np.asarray(item["sample_pb"]) / width
+    err = np.asarray(item["sample_error_pb"]) / width
+    ref = np.asarray(item["reference_pb"]) / width
+    pulls = np.asarray(item["pulls"])
+    fig, (top, bot) = plt.subplots(2, 1, figsize=(7.0, 6.0), sharex=True,
+                                   gridspec_kw={"height_ratios": [3, 1.2], "hspace": 0.05})
+    top.fill_between(edges, np.append(ref - err, ref[-1] - err[-1]), np.append(ref + err, ref[-1] + err[-1]),
+                     step="post", color=BAND, label="reference ± expected spread")
+    top.stairs(ref, edges, color=AMBER, lw=1.8, label="analytic reference")
+    top.errorbar(centre, val, yerr=err, fmt="o", ms=3.5, color=INK, lw=1.0, label=f"sample ({report['weighting']})")
+    unit = item["unit"]
+    top.set_ylabel(f"dσ/dx  [pb{' / ' + unit if unit else ''}]")
+    verdict = "pass" if item["pass"] else "FAIL"
+    top.set_title(f"{report['process']}  ·  χ²/dof = {item['chi2_per_dof']:.2f}, p = {item['p_value']:.3g}  ·  {verdict}",
+                  fontsize=10, color=GOOD if item["pass"] else BAD, loc="left")
+    top.legend(frameon=False, fontsize=8)
+    top.spines[["top", "right"]].set_visible(False)
+    bot.axhspan(-2, 2, color="#eeeeee")
+    bot.axhspan(-1, 1, color="#dddddd")
+    bot.bar(centre, pulls, width=0.8 * width, color=[GOOD if abs(p) < 3 else BAD for p in pulls])
+    bot.axhline(0, color=INK, lw=0.8)
+    lim = max(3.5, float(np.abs(pulls).max()) * 1.15 if pulls.size else 3.5)
+    bot.set_ylim(-lim, lim)
+    bot.set_ylabel("pull")
+    bot.set_xlabel(item["label"])
+    bot.spines[["top", "right"]].set_visible(False)
+    fig.savefig(path, dpi=110, bbox_inches="tight")
+    plt.close(fig)
+    return path
+
+
+def quick_look(path: str | Path, out: str | Path | None = None, bins: int = 40) -> list[Path]:
+    """Histograms of E, p_T, pseudorapidity and azimuth of each outgoing particle, weighted to dσ/dx."""
+    import boost_histogram as bh
+    import pyarrow.parquet as pq
+
+    from .store import read_run
+
+    plt = _pyplot()
+    path = Path(path)
+    rec = read_run(path)
+    names = rec["process"]["outgoing"]
+    table = pq.read_table(path, columns=["weight", "particles"])
+    w = table.column("weight").to_numpy()
+    flat = table.column("particles").combine_chunks().flatten()
+    n = len(rec["process"]["incoming"]) + len(names)
+    p = np.stack([flat.field(k).to_numpy(zero_copy_only=False) for k in ("e", "px", "py", "pz")], -1).reshape(len(w), n, 4)
+    out_dir = Path(out) if out is not None else path.parent / "plots"
+    out_dir.mkdir(parents=True, exist_ok=True)
+    files = []
+    for k, name in enumerate(names):
+        q = p[:, 2 + k, :]
+        pt = np.hypot(q[:, 1], q[:, 2])
+        pabs = np.sqrt(pt * pt + q[:, 3] ** 2)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            eta = np.arctanh(np.where(pabs > 0, q[:, 3] / pabs, 0.0))
+        obs = [("energy E [GeV]", q[:, 0], "GeV"), ("transverse momentum p_T [GeV]", pt, "GeV"),
+               ("pseudorapidity η", eta, ""), ("azimuth φ [rad]", np.arctan2(q[:, 2], q[:, 1]), "rad")]
+        fig, axs = plt.subplots(2, 2, figsize=(9, 6.5))
+        for ax, (label, x, unit) in zip(axs.ravel(), obs):
+            x = x[np.isfinite(x)]
+            lo, hi = (float(x.min()), float(x.max())) if x.size else (0.0, 1.0)
+            if not hi > lo:
+                lo, hi = lo - 0.5 * max(abs(lo), 1e-3), hi + 0.5 * max(abs(hi), 1e-3)
+            h = bh.Histogram(bh.axis.Regular(bins, lo, hi + 1e-12 * (hi - lo)), storage=bh.storage.Weight())
+            h.fill(x, weight=w[: x.size] if x.size == w.size else np.ones(x.size))
+            width = h.axes[0].widths
+            ax.stairs(h.values() / width, h.axes[0].edges, color=INK, lw=1.4, fill=True, alpha=0.15)
+            ax.stairs(h.values() / width, h.axes[0].edges, color=INK, lw=1.4)
+            ax.errorbar(h.axes[0].centers, h.values() / width, yerr=np.sqrt(h.variances()) / width, fmt="none",
+                        color=AMBER, lw=1.0)
+            ax.set_xlabel(label)
+            ax.set_ylabel(f"dσ/dx  [pb{' / ' + unit if unit else ''}]")
+            ax.spines[["top", "right"]].set_visible(False)
+        fig.suptitle(f"{rec['process']['label']}  ·  {name}  ·  {rec['weighting']}, {len(w)} events", fontsize=10,
+                     x=0.02, ha="left")
+        fig.tight_layout()
+        target = out_dir / f"{path.stem}-{k}-{name.replace('+', 'plus').replace('-', 'minus')}.png"
+        fig.savefig(target, dpi=100)
+        plt.close(fig)
+        files.append(target)
+    return files

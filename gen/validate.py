@@ -1,0 +1,211 @@
+"""Validate an event file against the analytic reference of its process.
+
+For each observable of the first outgoing particle (cos theta* in the centre-of-mass frame; the
+laboratory transverse momentum, rapidity and energy when they vary), the file's events are
+histogrammed with boost-histogram and each bin is compared with the reference's integral over
+that bin, with the card's cuts applied. The reference (`gen.references`) is integrated on a fine
+Gauss-Legendre grid in cos theta*, which also gives the reference's own numerical error.
+
+Statistics. Unweighted files: Pearson chi-square of the counts against N times the reference's
+bin fractions (a shape test, bins - 1 degrees of freedom), pulls (n - mu)/sqrt(mu). Weighted
+files: bin sums of weights against the reference's bin cross-sections with the variance sum w^2
+(absolute, `bins` degrees of freedom). The total cross-section (sum of the file's weights) against
+the reference's, in standard deviations of their combined error (the file's reported error, the
+reference's numerical error and its stated accuracy). A file passes when every observable's
+p-value is at least `p_min`, its largest pull at most `pull_max`, and the total within `sigma_max`.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pyarrow.parquet as pq
+from scipy.stats import chi2 as _chi2
+
+from .card import parse_card
+from .errors import CardError, OutputError, UserError
+from .process import TwoToTwo, build_process
+from .references import REFERENCES, Reference
+from .store import read_run
+
+__all__ = ["validate", "Thresholds", "OBSERVABLES", "observables_of"]
+
+
+@dataclass(frozen=True)
+class Thresholds:
+    p_min: float = 1e-4
+    pull_max: float = 6.0
+    sigma_max: float = 5.0
+
+
+#: name -> (axis label with unit, unit)
+OBSERVABLES = {
+    "cos_theta_cm": ("cos θ* of the first outgoing particle (centre-of-mass frame)", ""),
+    "pt": ("transverse momentum p_T of the first outgoing particle [GeV]", "GeV"),
+    "rapidity": ("rapidity y of the first outgoing particle (laboratory)", ""),
+    "energy": ("energy E of the first outgoing particle (laboratory) [GeV]", "GeV"),
+}
+
+
+def observables_of(p: np.ndarray, beta_cm: float) -> dict[str, np.ndarray]:
+    """The observables of four-momenta p (N, 4) in the laboratory; beta_cm boosts to the CM frame."""
+    e, px, py, pz = p[:, 0], p[:, 1], p[:, 2], p[:, 3]
+    g = 1.0 / math.sqrt((1.0 - beta_cm) * (1.0 + beta_cm))
+    pz_cm = g * (pz - beta_cm * e)
+    pt = np.hypot(px, py)
+    pcm = np.sqrt(pt * pt + pz_cm * pz_cm)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        y = 0.5 * np.log((e + pz) / (e - pz))
+        cos_cm = np.where(pcm > 0, pz_cm / pcm, 1.0)
+    return {"cos_theta_cm": cos_cm, "pt": pt, "rapidity": y, "energy": e}
+
+
+def _reference_grid(proc: TwoToTwo, ref: Reference, par: dict, s: float, intervals: int):
+    """Fine-grid nodes of cos theta* with their reference weights (pb, zero where cut) and observables."""
+    nodes, gw = np.polynomial.legendre.leggauss(6)
+    lo, hi = proc.map.lo, proc.map.hi
+    edges = np.linspace(lo, hi, intervals + 1)
+    half = 0.5 * np.diff(edges)
+    mid = 0.5 * (edges[1:] + edges[:-1])
+    c = (mid[:, None] + half[:, None] * nodes[None, :]).ravel()
+    w = (half[:, None] * gw[None, :]).ravel() * ref.density(c, s, par)
+    lab = proc._lab_outgoing(c, np.zeros_like(c))
+    w = np.where(proc.cut_mask(lab), w, 0.0)
+    return w, observables_of(lab[:, 0, :], proc.beta)
+
+
+def _canonical_params(rec: dict, proc: TwoToTwo) -> dict:
+    names = rec["process"]["incoming"] + rec["process"]["outgoing"]
+    masses = [rec["parameters"]["masses_GeV"][n] for n in names]
+    par = dict(rec["parameters"]["model"])
+    par.update({f"m{k + 1}": masses[i] for k, i in enumerate(proc.canonical)})
+    return par
+
+
+def validate(path: str | Path, out: str | Path | None = None, bins: int = 20,
+             thresholds: Thresholds = Thresholds(), plots: bool = True) -> dict:
+    """Validate one event file; returns the report (also written as JSON, with PNG plots)."""
+    import boost_histogram as bh
+
+    path = Path(path)
+    rec = read_run(path)
+    try:
+        cfg = parse_card(rec["card"]["text"], rec["card"]["path"])
+        proc = build_process(cfg)
+    except CardError as exc:
+        raise OutputError(f"{path}: the card stored in the file cannot be used: {exc}") from None
+    spec = proc.spec
+    if spec.reference is None or spec.reference not in REFERENCES:
+        raise UserError(f"{path}: no analytic reference for {spec.label} in the {spec.model} model; "
+                        "validation covers: " + ", ".join(sorted(REFERENCES)))
+    ref = REFERENCES[spec.reference]
+    par = _canonical_params(rec, proc)
+    s = rec["collider"]["sqrt_s_GeV"] ** 2
+    w_ref, o_ref = _reference_grid(proc, ref, par, s, 40000)
+    w_half, _ = _reference_grid(proc, ref, par, s, 20000)
+    sigma_ref = float(w_ref.sum())
+    sigma_ref_num = abs(sigma_ref - float(w_half.sum()))
+    sigma_ref_acc = ref.accuracy(s, par) * sigma_ref
+
+    axes = {}
+    for name, vals in o_ref.items():
+        live = vals[w_ref > 0]
+        lo, hi = float(live.min()), float(live.max())
+        if hi - lo <= 1e-9 * max(abs(hi), abs(lo), 1.0):
+            continue  # constant at fixed beam energies (e.g. the energy in the CM frame)
+        pad = 1e-9 * (hi - lo)
+        axes[name] = bh.axis.Regular(bins, lo - pad, hi + pad)
+    hists = {n: bh.Histogram(ax, storage=bh.storage.Weight()) for n, ax in axes.items()}
+    refs = {}
+    for n, ax in axes.items():
+        refs[n] = bh.Histogram(ax, storage=bh.storage.Double()).fill(o_ref[n], weight=w_ref).values()
+
+    sum_w = sum_w2 = 0.0
+    n_events = 0
+    pf = pq.ParquetFile(path)
+    for batch in pf.iter_batches(columns=["weight", "particles"], batch_size=200000):
+        w = batch.column(0).to_numpy()
+        parts = batch.column(1)
+        flat = parts.flatten()
+        n = int(parts.offsets[1].as_py() - parts.offsets[0].as_py()) if len(parts) else 0
+        comp = np.stack([flat.field(k).to_numpy(zero_copy_only=False) for k in ("e", "px", "py", "pz")], -1)
+        first = comp.reshape(len(w), n, 4)[:, 2, :]
+        obs = observables_of(first, rec["collider"]["cm_beta_z"])
+        for name, h in hists.items():
+            h.fill(obs[name], weight=w)
+        sum_w += float(w.sum())
+        sum_w2 += float((w * w).sum())
+        n_events += len(w)
+
+    weighted = rec["weighting"] == "weighted"
+    if weighted:
+        trials = rec["events"]["trials"]
+        sigma_err = math.sqrt(max(trials * sum_w2 - sum_w**2, 0.0) / trials)
+    else:
+        total = rec["cross_section"]["total"]
+        sigma_err = total["error_pb"] * (sum_w / total["value_pb"]) if total["value_pb"] else 0.0
+    comb = math.sqrt(sigma_err**2 + sigma_ref_num**2 + sigma_ref_acc**2)
+    sigma_pull = (sum_w - sigma_ref) / comb if comb > 0 else (0.0 if sum_w == sigma_ref else math.inf)
+
+    results = []
+    out_dir = Path(out) if out is not None else path.parent / "validation"
+    for name, h in hists.items():
+        view = h.view(flow=True)
+        flow_events = float(view.value[0] + view.value[-1])
+        val, var = h.values(), h.variances()
+        r = refs[name]
+        if weighted:
+            expect = r
+            err = np.sqrt(np.where(var > 0, var, np.maximum(r, 0) * max(sum_w / max(n_events, 1), 1e-300)))
+            dof = int(np.count_nonzero(expect > 0))
+        else:
+            counts = val / (sum_w / n_events) if sum_w > 0 else val
+            expect_counts = n_events * r / r.sum()
+            err_counts = np.sqrt(expect_counts)
+            # report in pb per bin: the counts scaled by the event weight
+            unit = sum_w / n_events if n_events else 1.0
+            expect, err = expect_counts * unit, err_counts * unit
+            val = counts * unit
+            dof = int(np.count_nonzero(expect_counts > 0)) - 1
+        ok = err > 0
+        pulls = np.zeros_like(val)
+        pulls[ok] = (val[ok] - expect[ok]) / err[ok]
+        chi2 = float((pulls[ok] ** 2).sum())
+        p_value = float(_chi2.sf(chi2, dof)) if dof > 0 else 1.0
+        max_pull = float(np.abs(pulls).max()) if pulls.size else 0.0
+        passed = p_value >= thresholds.p_min and max_pull <= thresholds.pull_max
+        item = {"name": name, "label": OBSERVABLES[name][0], "unit": OBSERVABLES[name][1],
+                "edges": h.axes[0].edges.tolist(), "sample_pb": val.tolist(), "sample_error_pb": err.tolist(),
+                "reference_pb": (expect if weighted else expect).tolist(), "pulls": pulls.tolist(),
+                "chi2": chi2, "dof": dof, "chi2_per_dof": chi2 / dof if dof > 0 else 0.0,
+                "p_value": p_value, "max_pull": max_pull, "events_outside": flow_events, "pass": passed}
+        results.append(item)
+    verdict = all(r["pass"] for r in results) and abs(sigma_pull) <= thresholds.sigma_max
+    report = {
+        "file": str(path), "weighting": rec["weighting"], "process": rec["process"]["label"],
+        "model": rec["process"]["model"], "events": n_events,
+        "reference": {"name": ref.name, "source": " ".join(ref.source.split())},
+        "thresholds": {"p_min": thresholds.p_min, "pull_max": thresholds.pull_max, "sigma_max": thresholds.sigma_max},
+        "cross_section": {"sample_pb": sum_w, "sample_error_pb": sigma_err, "reference_pb": sigma_ref,
+                          "reference_numerical_error_pb": sigma_ref_num, "reference_accuracy_pb": sigma_ref_acc,
+                          "pull": sigma_pull, "pass": abs(sigma_pull) <= thresholds.sigma_max},
+        "observables": results,
+        "verdict": "pass" if verdict else "fail",
+    }
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+        if plots:
+            from .plots import validation_plot
+
+            for item in results:
+                item["plot"] = str(validation_plot(report, item, out_dir / f"{path.stem}-{item['name']}.png"))
+        report_path = out_dir / f"{path.stem}.validation.json"
+        report_path.write_text(json.dumps(report, indent=1), encoding="utf-8")
+    except OSError as exc:
+        raise OutputError(f"{out_dir}: cannot write the validation report: {exc.strerror or exc}") from None
+    report["report"] = str(report_path)
+    return report
