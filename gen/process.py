@@ -112,6 +112,10 @@ class TwoToTwo:
         self.in_flip = self.in_perm[0] != 0
         self.selected = [i for i, sp in enumerate(cfg.outgoing)
                          if "particles" not in cfg.cuts or sp.name in cfg.cuts["particles"]]
+        c = cfg.cuts
+        self.has_cuts = (c["theta_min_deg"] > 0 or c["theta_max_deg"] < 180 or c["energy_min"] > 0
+                         or c["energy_max"] < math.inf or c["pt_min"] > 0 or c["pt_max"] < math.inf
+                         or c["mass_min"] > 0 or c["mass_max"] < math.inf)
         self.map = self._angular_map()
 
     def _mass(self, sp: Species, model_masses: dict[str, float]) -> float:
@@ -208,16 +212,9 @@ class TwoToTwo:
         c, jac = self.map(x[:, 0])
         s, t, u = self._mandelstam(c)
         w = self.norm * jac * self.spec.matrix(s, t, u, self.me_params)
-        if self._has_cuts:
+        if self.has_cuts:
             w = np.where(self.cut_mask(self._lab_outgoing(c, np.zeros_like(c))), w, 0.0)
         return w
-
-    @property
-    def _has_cuts(self) -> bool:
-        c = self.cfg.cuts
-        return (c["theta_min_deg"] > 0 or c["theta_max_deg"] < 180 or c["energy_min"] > 0
-                or c["energy_max"] < math.inf or c["pt_min"] > 0 or c["pt_max"] < math.inf
-                or c["mass_min"] > 0 or c["mass_max"] < math.inf)
 
     def momenta(self, x, rng: np.random.Generator):
         """Laboratory momenta (N, 4, 4) for points x: incoming then outgoing, in the user's order."""
