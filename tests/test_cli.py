@@ -89,3 +89,27 @@ def test_info_on_a_foreign_parquet_file(tmp_path):
 def test_every_demo_card_runs(card, tmp_path):
     assert main(["run", str(card), "-o", str(tmp_path), "--events", "2000", "--quiet"]) == 0
     assert (tmp_path / "unweighted.parquet").exists() and (tmp_path / "weighted.parquet").exists()
+
+
+def test_adapt_parts_info_and_merge_through_the_command(tmp_path):
+    card = Path(__file__).parent.parent / "cards" / "scalar-toy.toml"
+    grid = tmp_path / "grid.json"
+    assert _gen("adapt", str(card), "-o", str(grid), "--quiet").returncode == 0
+    for j in (0, 1):
+        r = _gen("run", str(card), "--grid", str(grid), "--job", str(j), "--jobs", "2", "--events", "4000",
+                 "-o", str(tmp_path / "parts"), "--quiet")
+        assert r.returncode == 0, r.stderr
+    info = json.loads(_gen("info", str(tmp_path / "parts"), "--json").stdout)
+    assert info["problems"] == [] and info["combined"]["events"] == 4000 and info["combined"]["parts"] == 2
+    r = _gen("merge", str(tmp_path / "parts"), "-o", str(tmp_path / "merged"))
+    assert r.returncode == 0, r.stderr
+    merged = json.loads(_gen("info", str(tmp_path / "merged" / "unweighted.parquet"), "--json").stdout)["files"][0]
+    assert merged["events"]["count"] == 4000
+    assert merged["cross_section"]["total"]["value_pb"] == pytest.approx(info["combined"]["value_pb"])
+    # a part made with another event total does not belong: refused, exit 2, one message
+    r = _gen("run", str(card), "--grid", str(grid), "--job", "0", "--jobs", "2", "--events", "5000",
+             "-o", str(tmp_path / "other"), "--quiet")
+    assert r.returncode == 0
+    r = _gen("merge", str(tmp_path / "other"), str(tmp_path / "parts" / "unweighted-part00001.parquet"),
+             "-o", str(tmp_path / "bad"))
+    assert r.returncode == 2 and "different card sampling settings" in r.stderr and "Traceback" not in r.stderr
