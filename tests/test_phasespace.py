@@ -1,0 +1,82 @@
+"""n-body phase space against analytic volumes (RAMBO paper; exact two- and three-body results)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from scipy.integrate import quad
+
+from gen.phasespace import MassMap, massless_volume, rambo, sequential
+
+RNG = np.random.default_rng(99)
+
+
+def _check_momenta(p, sqrt_s, masses):
+    total = p.sum(axis=1)
+    assert np.abs(total - [sqrt_s, 0, 0, 0]).max() < 1e-9 * sqrt_s
+    m2 = p[..., 0] ** 2 - (p[..., 1:] ** 2).sum(axis=-1)
+    assert np.abs(m2 - np.asarray(masses) ** 2).max() < 1e-9 * sqrt_s**2
+
+
+def test_massless_volume_formula_for_two_bodies():
+    """Phi_2 = 1/(8 pi) for massless particles (common practice, no source)."""
+    assert massless_volume(2, 91.0) == pytest.approx(1 / (8 * math.pi))
+
+
+@pytest.mark.parametrize("n", [3, 4, 5, 6])
+def test_rambo_massless_weight_is_the_analytic_volume(n):
+    """Kleiss, Stirling & Ellis (1986): the massless weight is constant and equals the volume
+    (2 pi)^(4-3n) (pi/2)^(n-1) s^(n-2) / ((n-1)! (n-2)!)."""
+    p, w = rambo(RNG, 20000, 100.0, [0.0] * n)
+    _check_momenta(p, 100.0, [0.0] * n)
+    assert np.all(w == w[0])
+    # the formula evaluated independently for n = 3: (2pi)^-5 (pi/2)^2 s / 2
+    if n == 3:
+        assert w[0] == pytest.approx((2 * math.pi) ** -5 * (math.pi / 2) ** 2 * 100.0**2 / 2)
+
+
+@pytest.mark.parametrize("n", [3, 4, 5])
+def test_sequential_massless_volume(n):
+    x = RNG.random((200000, 3 * n - 4))
+    p, w = sequential(x, 50.0, [0.0] * n)
+    _check_momenta(p, 50.0, [0.0] * n)
+    vol = massless_volume(n, 50.0)
+    assert abs(w.mean() - vol) < 5 * w.std() / math.sqrt(w.size)
+
+
+def test_massive_two_body_is_exact():
+    """Phi_2 = p*/(4 pi sqrt(s)) (common practice, no source)."""
+    m = [10.0, 30.0]
+    lam = (100.0**2 - 40.0**2) * (100.0**2 - 20.0**2)
+    exact = math.sqrt(lam) / 200.0 / (4 * math.pi * 100.0)
+    p, w = rambo(RNG, 5000, 100.0, m)
+    _check_momenta(p, 100.0, m)
+    np.testing.assert_allclose(w, exact, rtol=1e-10)
+    q, ws = sequential(RNG.random((5000, 2)), 100.0, m)
+    _check_momenta(q, 100.0, m)
+    np.testing.assert_allclose(ws, exact, rtol=1e-10)
+
+
+def _dalitz_volume(big_m, m1, m2, m3):
+    """Phi_3 = (1/(128 pi^3 M^2)) x area of the Dalitz plot (PDG kinematics review, eq. for dGamma), by scipy."""
+    def span(s12):
+        r = math.sqrt(s12)
+        e2 = (s12 - m1**2 + m2**2) / (2 * r)
+        e3 = (big_m**2 - s12 - m3**2) / (2 * r)
+        return 4 * math.sqrt(max(e2**2 - m2**2, 0)) * math.sqrt(max(e3**2 - m3**2, 0))
+    return quad(span, (m1 + m2) ** 2, (big_m - m3) ** 2, epsrel=1e-11)[0] / (128 * math.pi**3 * big_m**2)
+
+
+@pytest.mark.parametrize("maps", [None, [MassMap("breit-wigner", mass=5.0, width=0.5)], [MassMap("power", nu=1.0)],
+                                  [MassMap("power", nu=2.0)]])
+def test_massive_three_body_against_the_dalitz_area(maps):
+    ms = [1.0, 2.0, 3.0]
+    exact = _dalitz_volume(10.0, *ms)
+    p, w = rambo(RNG, 300000, 10.0, ms)
+    _check_momenta(p, 10.0, ms)
+    assert abs(w.mean() - exact) < 5 * w.std() / math.sqrt(w.size)
+    q, ws = sequential(RNG.random((300000, 5)), 10.0, ms, maps)
+    _check_momenta(q, 10.0, ms)
+    assert abs(ws.mean() - exact) < 5 * ws.std() / math.sqrt(ws.size), (ws.mean(), exact)
