@@ -1,4 +1,4 @@
-"""The `gen` command: run, info, processes.
+"""The `gen` command: run, adapt, merge, info, validate, plot, processes.
 
 User errors print one line `gen: error: ...` on stderr and exit with status 2; internal errors
 keep their traceback.
@@ -36,7 +36,10 @@ def _cmd_adapt(args) -> int:
 
     cfg = load_card(args.card).with_overrides(seed=args.seed)
     progress = Progress(enabled=None if not args.quiet else False)
-    grid = make_grid(build_process(cfg), cfg, progress)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        grid = make_grid(build_process(cfg), cfg, progress)
+    _print_warnings(caught)
     path = grid.save(args.output)
     if not args.quiet:
         xs = grid.cross_section

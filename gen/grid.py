@@ -12,6 +12,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import warnings
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -25,10 +26,14 @@ from .process import TwoToTwo
 from .progress import Progress
 from .sampler import CrossSection, MapSampler, adapt
 
-__all__ = ["Grid", "GridError", "make_grid", "physics_digest", "streams"]
+__all__ = ["Grid", "GridError", "ConsistencyWarning", "make_grid", "physics_digest", "streams"]
 
 FORMAT = "gen.grid"
 VERSION = 1
+
+
+class ConsistencyWarning(UserWarning):
+    """The vegas iterations disagree more than their errors allow."""
 
 
 class GridError(UserError):
@@ -146,6 +151,10 @@ def make_grid(proc: TwoToTwo, cfg: RunConfig, progress: Progress | None = None) 
                      iterations=integ["iterations"], points=integ["points_per_iteration"],
                      on_iteration=lambda i, n, v, e: progress.update(i, f"σ = {v:.5e} ± {e:.2e} pb"))
     progress.end(f"σ = {xs.value:.5e} ± {xs.error:.2e} pb")
+    if not xs.consistent(integ["consistency_min_q"]):
+        warnings.warn(f"the vegas iterations disagree (chi2/dof = {xs.chi2_dof:.2f}, Q = {xs.q:.3g} < "
+                      f"integration.consistency_min_q = {integ['consistency_min_q']}); raise "
+                      "integration.warmup_iterations or points_per_iteration", ConsistencyWarning, stacklevel=3)
     nodes = tuple(tuple(float(v) for v in amap.grid[d]) for d in range(proc.ndim))
     # calibrate on the map rebuilt from the stored nodes, exactly as every part will sample it
     sampler = MapSampler(proc.weights, vegas.AdaptiveMap([list(n) for n in nodes]), proc.ndim, cfg.sampling["chunk"])

@@ -12,7 +12,6 @@ from __future__ import annotations
 import contextlib
 import datetime as _dt
 import os
-import warnings
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -22,7 +21,7 @@ from . import __version__
 from .card import RunConfig
 from .errors import OutputError
 from .events import JOB_STRIDE, EventLayout
-from .grid import Grid, make_grid, physics_digest, streams
+from .grid import ConsistencyWarning, Grid, make_grid, physics_digest, streams
 from .process import TwoToTwo, build_process
 from .progress import Progress
 from .sampler import CrossSection, MapSampler, UnweightingStats
@@ -33,10 +32,6 @@ __all__ = ["run", "RunResult", "ConsistencyWarning", "UNWEIGHTED_FILE", "WEIGHTE
 
 UNWEIGHTED_FILE = "unweighted.parquet"
 WEIGHTED_FILE = "weighted.parquet"
-
-
-class ConsistencyWarning(UserWarning):
-    """The vegas iterations disagree more than their errors allow."""
 
 
 @dataclass
@@ -160,11 +155,6 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
     xs = grid.cross_section
     if job is not None and part_complete(out, cfg, grid, job, jobs):
         return RunResult(out, xs, None, [], {}, skipped=True)
-    integ = cfg.integration
-    if not xs.consistent(integ["consistency_min_q"]):
-        warnings.warn(f"the vegas iterations disagree (chi2/dof = {xs.chi2_dof:.2f}, Q = {xs.q:.3g} < "
-                      f"integration.consistency_min_q = {integ['consistency_min_q']}); raise "
-                      "integration.warmup_iterations or points_per_iteration", ConsistencyWarning, stacklevel=2)
     samp = cfg.sampling
     index = 0 if job is None else job
     rng_unw, rng_w = streams(samp["seed"], index)
