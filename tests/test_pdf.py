@@ -55,7 +55,7 @@ def test_momentum_and_valence_sum_rules(q):
     lo = float(s.blocks[0].x[0])
 
     def integral(fn):
-        return quad(lambda t: fn(math.exp(t)), math.log(lo), 0.0, limit=400, epsrel=1e-8)[0]
+        return quad(lambda t: fn(math.exp(t)), math.log(lo), 0.0, limit=400, epsrel=1e-6)[0]
 
     def xf(pid, x):
         return float(s.xfx(pid, np.array([x]), np.array([q]))[0])
