@@ -5,8 +5,6 @@ CODATA values come from `scipy.constants`; (hbar c)^2 is the exact PDG value.
 
 from __future__ import annotations
 
-import math
-
 import scipy.constants as _sc
 
 #: (hbar c)^2 in pb GeV^2 (PDG RPP Table 1.1; exact since the 2019 SI redefinition).
@@ -24,4 +22,3 @@ ALPHA_MZ = 1.0 / 127.951
 #: Effective leptonic weak mixing angle sin^2(theta_eff) (LEP/SLC, Phys. Rept. 427 (2006) 257).
 SW2_EFFECTIVE = 0.23153
 
-PI = math.pi

@@ -23,7 +23,7 @@ import math
 import os
 import re
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cached_property, lru_cache
 from importlib import resources
 from pathlib import Path
 
@@ -96,11 +96,11 @@ class Block:
     pids: tuple[int, ...]
     values: np.ndarray
 
-    @property
+    @cached_property
     def logx(self) -> np.ndarray:
         return np.log(self.x)
 
-    @property
+    @cached_property
     def logq2(self) -> np.ndarray:
         return np.log(self.q * self.q)
 

@@ -120,12 +120,6 @@ def photon_fusion(c, s, par):
     return _from_m2(_pair_annihilation_form(t, u, par["m3"], par["alpha"]), s, pi, pf)
 
 
-def _ew_couplings(name_charge_t3, par):
-    q, t3 = name_charge_t3
-    sw2 = par["sw2"]
-    return q, t3 - 2 * q * sw2, t3  # Q, v, a in the normalization v = T3 - 2 Q s^2, a = T3
-
-
 def make_gamma_z(q_f: float, t3_f: float, nc: float):
     def density(c, s, par):
         """dsigma/dcos = (pi alpha^2 N_c beta / 2s) [(2 - beta^2 + beta^2 c^2) V + beta^2 (1 + c^2) A + 2 beta c I],

@@ -67,7 +67,7 @@ def schema_markdown() -> str:
 
 
 class EventWriter:
-    """Streams record batches into a Parquet file; the file appears only when `commit` runs.
+    """Streams record batches into a Parquet file; the file appears only when `publish` runs.
 
     Use as a context manager: leaving the block by an exception removes the temporary file, so a
     failed or killed run leaves nothing that looks like a complete file. `finish` completes the
@@ -135,11 +135,6 @@ class EventWriter:
             raise OutputError(f"{self.path}: cannot move the finished file into place: {exc.strerror or exc}") from None
         self._published = True
         return self.path
-
-    def commit(self, record: dict[str, Any]) -> Path:
-        """finish, then publish."""
-        self.finish(record)
-        return self.publish()
 
     def abort(self) -> None:
         if self._published:

@@ -118,13 +118,6 @@ def _resolve(over):
     return out
 
 
-#: Which card parameters each scheme takes as input (the others are derived or unused).
-SCHEME_INPUTS = {
-    "fermi": ("m_W", "g_fermi"),
-    "thomson": ("m_W", "alpha"),
-    "zpole": ("alpha", "sw2"),
-}
-
 _QUARK_FLOW = ColourFlow(((0, 0), (0, 0), (1, 0), (0, 1)))
 
 _PROC = []
