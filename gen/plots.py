@@ -100,8 +100,9 @@ def quick_look(path: str | Path, out: str | Path | None = None, bins: int = 40) 
         for ax, (label, x, unit) in zip(axs.ravel(), obs):
             x = x[np.isfinite(x)]
             lo, hi = (float(x.min()), float(x.max())) if x.size else (0.0, 1.0)
-            if not hi > lo:
-                lo, hi = lo - 0.5 * max(abs(lo), 1e-3), hi + 0.5 * max(abs(hi), 1e-3)
+            if not hi - lo > 1e-9 * max(abs(hi), abs(lo), 1.0):  # constant (e.g. energies at fixed sqrt(s))
+                half = 0.01 * max(abs(lo), 1e-3)
+                lo, hi = lo - half, hi + half
             h = bh.Histogram(bh.axis.Regular(bins, lo, hi + 1e-12 * (hi - lo)), storage=bh.storage.Weight())
             h.fill(x, weight=w[: x.size] if x.size == w.size else np.ones(x.size))
             width = h.axes[0].widths
