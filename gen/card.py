@@ -41,7 +41,7 @@ SPEC: dict[str, dict[str, Key]] = {
     "process": {
         "model": Key(str, required=True, choices=tuple(MODELS), doc="model of the process library"),
         "incoming": Key(list, required=True, doc="two incoming particles (names or PDG ids); the first moves along +z"),
-        "outgoing": Key(list, required=True, doc="two outgoing particles (names or PDG ids)"),
+        "outgoing": Key(list, required=True, doc="two or three outgoing particles (names or PDG ids)"),
     },
     "collider": {
         "sqrt_s": Key(_NUM, lo=0.0, unit="GeV", doc="head-on beams of equal energy sqrt_s/2 (laboratory = centre-of-mass frame)"),
@@ -58,6 +58,7 @@ SPEC: dict[str, dict[str, Key]] = {
         "pt_max": Key(_NUM, math.inf, 0.0, None, "GeV", "largest transverse momentum, each particle"),
         "mass_min": Key(_NUM, 0.0, 0.0, None, "GeV", "smallest invariant mass of the selected particles together"),
         "mass_max": Key(_NUM, math.inf, 0.0, None, "GeV", "largest invariant mass of the selected particles together"),
+        "pair_mass_min": Key(_NUM, 0.0, 0.0, None, "GeV", "smallest invariant mass of every pair of selected particles"),
     },
     "integration": {
         "warmup_iterations": Key(int, 5, 0, 1000, "", "vegas iterations that adapt the grid and are discarded"),
@@ -87,7 +88,7 @@ class RunConfig:
     text: str
     model: str
     incoming: tuple[Species, Species]
-    outgoing: tuple[Species, Species]
+    outgoing: tuple[Species, ...]
     collider: dict[str, Any]
     parameters: dict[str, Any]
     masses: dict[int, float]  # by |PDG id|: a particle and its antiparticle
@@ -204,7 +205,9 @@ def parse_card(text: str, source: str = "<card>") -> RunConfig:
                             + "; accepted sections: " + ", ".join(sections))
     proc = _section(source, doc, "process")
     incoming = _particles(source, "process.incoming", proc["incoming"], 2)
-    outgoing = _particles(source, "process.outgoing", proc["outgoing"], 2)
+    outgoing = _particles(source, "process.outgoing", proc["outgoing"], None)
+    if len(outgoing) not in (2, 3):
+        raise CardError(source, "process.outgoing", f"expected 2 or 3 particles, found {len(outgoing)}")
     model = MODELS[proc["model"]]
     found = find_process(model, tuple(p.name for p in incoming), tuple(p.name for p in outgoing))
     if found is None:

@@ -278,7 +278,8 @@ def _cmd_processes(args) -> int:
         print(f"{name}: {model.doc}")
         for spec in model.processes:
             sym = "  (identical final particles: factor 1/2)" if spec.symmetry != 1 else ""
-            cut = "  [needs cuts away from the beam axis]" if spec.needs_angular_cut else ""
+            cut = ("  [needs cuts away from the soft and collinear regions]" if len(spec.outgoing) > 2
+                   else "  [needs cuts away from the beam axis]") if spec.needs_angular_cut else ""
             print(f"    {spec.label}{sym}{cut}")
         print("    parameters: " + ", ".join(model.params))
     return 0

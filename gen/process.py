@@ -67,6 +67,41 @@ def _beams(cfg: RunConfig, m1: float, m2: float) -> Beams:
     return Beams(along(e1, m1, 1, k), np.array([m2, 0.0, 0.0, 0.0]), k)
 
 
+def has_cuts(c: dict) -> bool:
+    return (c["theta_min_deg"] > 0 or c["theta_max_deg"] < 180 or c["energy_min"] > 0
+            or c["energy_max"] < math.inf or c["pt_min"] > 0 or c["pt_max"] < math.inf
+            or c["mass_min"] > 0 or c["mass_max"] < math.inf or c.get("pair_mass_min", 0.0) > 0)
+
+
+def _inv_mass(p):
+    return np.sqrt(np.clip(p[..., 0] ** 2 - p[..., 1] ** 2 - p[..., 2] ** 2 - p[..., 3] ** 2, 0.0, None))
+
+
+def cut_mask(cuts: dict, out: np.ndarray, selected: list[int]) -> np.ndarray:
+    """True for events whose outgoing laboratory momenta out (N, n, 4) pass the cuts on `selected`."""
+    ok = np.ones(out.shape[0], dtype=bool)
+    sel = out[:, selected, :]
+    e = sel[..., 0]
+    pt = np.hypot(sel[..., 1], sel[..., 2])
+    pabs = np.sqrt(pt * pt + sel[..., 3] ** 2)
+    if cuts["theta_min_deg"] > 0.0 or cuts["theta_max_deg"] < 180.0:
+        cos_t = np.divide(sel[..., 3], pabs, out=np.ones_like(pabs), where=pabs > 0)
+        ok &= np.all((cos_t <= math.cos(math.radians(cuts["theta_min_deg"])))
+                     & (cos_t >= math.cos(math.radians(cuts["theta_max_deg"]))), axis=1)
+    if cuts["energy_min"] > 0.0 or cuts["energy_max"] < math.inf:
+        ok &= np.all((e >= cuts["energy_min"]) & (e <= cuts["energy_max"]), axis=1)
+    if cuts["pt_min"] > 0.0 or cuts["pt_max"] < math.inf:
+        ok &= np.all((pt >= cuts["pt_min"]) & (pt <= cuts["pt_max"]), axis=1)
+    if cuts["mass_min"] > 0.0 or cuts["mass_max"] < math.inf:
+        m = _inv_mass(sel.sum(axis=1))
+        ok &= (m >= cuts["mass_min"]) & (m <= cuts["mass_max"])
+    if cuts.get("pair_mass_min", 0.0) > 0.0:
+        for i in range(len(selected)):
+            for j in range(i + 1, len(selected)):
+                ok &= _inv_mass(sel[:, i] + sel[:, j]) >= cuts["pair_mass_min"]
+    return ok
+
+
 class TwoToTwo:
     """A 2->2 process at fixed beam energies: one integration variable, the mapped cos(theta*)."""
 
@@ -112,10 +147,7 @@ class TwoToTwo:
         self.in_flip = self.in_perm[0] != 0
         self.selected = [i for i, sp in enumerate(cfg.outgoing)
                          if "particles" not in cfg.cuts or sp.name in cfg.cuts["particles"]]
-        c = cfg.cuts
-        self.has_cuts = (c["theta_min_deg"] > 0 or c["theta_max_deg"] < 180 or c["energy_min"] > 0
-                         or c["energy_max"] < math.inf or c["pt_min"] > 0 or c["pt_max"] < math.inf
-                         or c["mass_min"] > 0 or c["mass_max"] < math.inf)
+        self.has_cuts = has_cuts(cfg.cuts)
         self.map = self._angular_map()
 
     def _mass(self, sp: Species, model_masses: dict[str, float]) -> float:
@@ -174,26 +206,8 @@ class TwoToTwo:
         return boost_z(out, self.beta)
 
     def cut_mask(self, out):
-        """True for events whose outgoing particles (N, 2, 4) pass the card's cuts."""
-        cuts = self.cfg.cuts
-        ok = np.ones(out.shape[0], dtype=bool)
-        sel = out[:, self.selected, :]
-        e = sel[..., 0]
-        pt = np.hypot(sel[..., 1], sel[..., 2])
-        pabs = np.sqrt(pt * pt + sel[..., 3] ** 2)
-        if cuts["theta_min_deg"] > 0.0 or cuts["theta_max_deg"] < 180.0:
-            cos_t = np.divide(sel[..., 3], pabs, out=np.ones_like(pabs), where=pabs > 0)
-            ok &= np.all((cos_t <= math.cos(math.radians(cuts["theta_min_deg"])))
-                         & (cos_t >= math.cos(math.radians(cuts["theta_max_deg"]))), axis=1)
-        if cuts["energy_min"] > 0.0 or cuts["energy_max"] < math.inf:
-            ok &= np.all((e >= cuts["energy_min"]) & (e <= cuts["energy_max"]), axis=1)
-        if cuts["pt_min"] > 0.0 or cuts["pt_max"] < math.inf:
-            ok &= np.all((pt >= cuts["pt_min"]) & (pt <= cuts["pt_max"]), axis=1)
-        if cuts["mass_min"] > 0.0 or cuts["mass_max"] < math.inf:
-            tot = sel.sum(axis=1)
-            m = np.sqrt(np.clip(tot[:, 0] ** 2 - tot[:, 1] ** 2 - tot[:, 2] ** 2 - tot[:, 3] ** 2, 0.0, None))
-            ok &= (m >= cuts["mass_min"]) & (m <= cuts["mass_max"])
-        return ok
+        """True for events whose outgoing particles (N, n, 4) pass the card's cuts."""
+        return cut_mask(self.cfg.cuts, out, self.selected)
 
     def _mandelstam(self, c):
         """s, t, u of the canonical order from the canonical cos(theta*) c (exact in the CM frame)."""
@@ -228,6 +242,83 @@ class TwoToTwo:
         return p
 
 
-def build_process(cfg: RunConfig) -> TwoToTwo:
+class ManyBody:
+    """2 -> n at fixed beam energies (n >= 3): sequential-splitting phase space on [0, 1]^(3n - 4).
+
+    The |M|^2 of the spec takes the canonical momenta in the centre-of-mass frame; the cuts act on
+    the laboratory momenta. Massless infrared regions must be cut away by the card's cuts.
+    """
+
+    def __init__(self, cfg: RunConfig):
+        from .phasespace import sequential
+
+        self._sequential = sequential
+        self.cfg = cfg
+        model = MODELS[cfg.model]
+        found = find_process(model, tuple(p.name for p in cfg.incoming), tuple(p.name for p in cfg.outgoing))
+        assert found is not None  # the card checked it
+        self.spec, self.in_perm, self.out_perm = found
+        self.params = model.resolve(cfg.parameters)
+        self.species: tuple[Species, ...] = tuple(cfg.incoming) + tuple(cfg.outgoing)
+        self.masses = tuple(float(cfg.masses.get(abs(sp.pdg), sp.mass)) for sp in self.species)
+        self.n_out = len(cfg.outgoing)
+        self.canonical = [self.in_perm[0], self.in_perm[1]] + [2 + i for i in self.out_perm]
+        self.me_params = dict(self.params, **{f"m{k + 1}": self.masses[i] for k, i in enumerate(self.canonical)})
+        self.beams = _beams(cfg, self.masses[0], self.masses[1])
+        self.sqrt_s = self.beams.sqrt_s
+        self.s = self.sqrt_s**2
+        if self.sqrt_s <= sum(self.masses[2:]):
+            raise CardError(cfg.source, self.beams.key, f"sqrt(s) = {self.sqrt_s:.6g} GeV is below the threshold "
+                            f"{sum(self.masses[2:]):.6g} GeV of {' '.join(p.name for p in cfg.outgoing)}")
+        self.beta = self.beams.beta
+        self.ndim = 3 * self.n_out - 4
+        self.flux = 1.0 / (2.0 * math.sqrt(kallen(self.s, self.masses[0] ** 2, self.masses[1] ** 2)))
+        self.selected = [i for i, sp in enumerate(cfg.outgoing)
+                         if "particles" not in cfg.cuts or sp.name in cfg.cuts["particles"]]
+        self.has_cuts = has_cuts(cfg.cuts)
+        if self.spec.needs_angular_cut and cfg.cuts.get("pair_mass_min", 0.0) <= 0.0:
+            raise CardError(cfg.source, "cuts.pair_mass_min",
+                            f"{self.spec.label} has soft and collinear singularities; keep every pair of partons "
+                            f"apart in invariant mass, for example pair_mass_min = {0.1 * self.sqrt_s:.4g} "
+                            "(0.1 sqrt(s), a y cut of 0.01)")
+        if self.has_cuts and not np.any(self.cut_mask(self._lab_outgoing(np.random.default_rng(0).random((20000, self.ndim)))[0])):
+            raise CardError(cfg.source, "cuts", "the cuts reject every event of this process at this energy")
+        p_in = momentum_2body(self.sqrt_s, self.masses[0], self.masses[1])
+        e1 = (self.s + self.masses[0] ** 2 - self.masses[1] ** 2) / (2.0 * self.sqrt_s)
+        self._p1 = np.array([e1, 0.0, 0.0, p_in])
+        self._p2 = np.array([self.sqrt_s - e1, 0.0, 0.0, -p_in])
+
+    def cut_mask(self, out):
+        return cut_mask(self.cfg.cuts, out, self.selected)
+
+    def _lab_outgoing(self, x):
+        """Outgoing momenta (N, n, 4): centre-of-mass frame and laboratory, and the phase-space weight."""
+        cm, w_ps = self._sequential(x, self.sqrt_s, self.masses[2:])
+        return boost_z(cm.copy(), self.beta), cm, w_ps
+
+    def weights(self, x):
+        lab, cm, w_ps = self._lab_outgoing(x)
+        n = x.shape[0]
+        full = np.empty((n, 2 + self.n_out, 4))
+        full[:, 0], full[:, 1], full[:, 2:] = self._p1, self._p2, cm
+        me = self.spec.momentum_matrix(full[:, self.canonical], self.me_params)
+        w = HBARC2_PB * self.spec.symmetry * self.flux * me * w_ps
+        if self.has_cuts:
+            w = np.where(self.cut_mask(lab), w, 0.0)
+        return w
+
+    def momenta(self, x, rng: np.random.Generator):
+        """Laboratory momenta (N, 2 + n, 4); the orientation is part of x, so rng is not used."""
+        lab, _, _ = self._lab_outgoing(x)
+        p = np.empty((x.shape[0], 2 + self.n_out, 4))
+        p[:, 0, :] = self.beams.p1
+        p[:, 1, :] = self.beams.p2
+        p[:, 2:, :] = lab
+        return p
+
+
+def build_process(cfg: RunConfig) -> "TwoToTwo | ManyBody":
     """The integrand object for a validated card (raises CardError for impossible kinematics)."""
+    if len(cfg.outgoing) > 2:
+        return ManyBody(cfg)
     return TwoToTwo(cfg)

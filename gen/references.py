@@ -167,6 +167,14 @@ def scalar(c, s, par):
     return 0.5 * HBARC2_PB * amp * amp / (32 * math.pi * s)
 
 
+def three_jet(x1, x2, s, par):
+    """dsigma/dx1 dx2 = sigma_pt (2 alpha_s / 3 pi)(x1^2 + x2^2)/((1 - x1)(1 - x2)), sigma_pt = 4 pi alpha^2
+    e_q^2 / s with the colours summed (DeGrand, Ng & Tye, Phys. Rev. D 16 (1977) 3251, eqs. 2.8-2.9;
+    Halzen & Martin eq. 11.35); x1, x2 the quark and antiquark energy fractions 2E/sqrt(s)."""
+    sigma_pt = 4 * math.pi * par["alpha"] ** 2 * par["charge"] ** 2 / s
+    return HBARC2_PB * sigma_pt * 2 * par["alpha_s"] / (3 * math.pi) * (x1 * x1 + x2 * x2) / ((1 - x1) * (1 - x2))
+
+
 def _zh_accuracy(s, par):
     mz, gz = par["m_Z"], par["width_Z"]
     return 2 * (mz * gz) ** 2 / (s - mz * mz) ** 2
@@ -187,6 +195,9 @@ REFERENCES: dict[str, Reference] = {
     "electroweak.higgs_strahlung": Reference("electroweak.higgs_strahlung", higgs_strahlung.__doc__, higgs_strahlung,
                                              lambda s, par: _zh_accuracy(s, par) + 10 * _me2_s(s, par)),
     "scalar.scattering": Reference("scalar.scattering", scalar.__doc__, scalar, _EXACT),
+    # a density in the quark and antiquark energy fractions (x1, x2), not in cos theta*
+    "qcd.three_jet": Reference("qcd.three_jet", three_jet.__doc__, three_jet,
+                               lambda s, par: 10 * (par["m3"] ** 2 + par["m1"] ** 2) / s),
 }
 for _name, _q, _t3, _nc in (("mu-", -1, -0.5, 1), ("tau-", -1, -0.5, 1), ("d", -1 / 3, -0.5, 3), ("u", 2 / 3, 0.5, 3),
                             ("s", -1 / 3, -0.5, 3), ("c", 2 / 3, 0.5, 3), ("b", -1 / 3, -0.5, 3)):

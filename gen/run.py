@@ -62,19 +62,21 @@ def part_sizes(total: int, jobs: int) -> list[int]:
 
 
 def _layout(proc: TwoToTwo) -> EventLayout:
-    colour = np.zeros(4, np.int32)
-    anticolour = np.zeros(4, np.int32)
+    n = len(proc.species)
+    colour = np.zeros(n, np.int32)
+    anticolour = np.zeros(n, np.int32)
     if proc.spec.colour is not None:
-        for user_i, canon_i in enumerate(proc.canonical):  # canonical tags -> user order
-            colour[user_i], anticolour[user_i] = proc.spec.colour.tags[canon_i]
+        for canon_k, user_i in enumerate(proc.canonical):  # canonical particle k is the user's user_i
+            colour[user_i], anticolour[user_i] = proc.spec.colour.tags[canon_k]
     return EventLayout(
         pdg=np.array([p.pdg for p in proc.species], np.int32),
-        roles=["incoming", "incoming", "outgoing", "outgoing"],
-        parent_first=np.array([-1, -1, 0, 0], np.int16),
-        parent_last=np.array([-1, -1, 1, 1], np.int16),
+        roles=["incoming", "incoming"] + ["outgoing"] * (n - 2),
+        parent_first=np.array([-1, -1] + [0] * (n - 2), np.int16),
+        parent_last=np.array([-1, -1] + [1] * (n - 2), np.int16),
         colour=colour, anticolour=anticolour,
         mass=np.array(proc.masses, np.float64),
-        subprocess=_label(proc.cfg), scale=proc.sqrt_s, alpha_em=float(proc.params.get("alpha", 0.0)))
+        subprocess=_label(proc.cfg), scale=proc.sqrt_s, alpha_em=float(proc.params.get("alpha", 0.0)),
+        alpha_s=proc.params.get("alpha_s"))
 
 
 def _label(cfg: RunConfig) -> str:

@@ -28,11 +28,14 @@ from scipy.stats import chi2 as _chi2
 
 from .card import parse_card
 from .errors import CardError, OutputError, UserError
-from .process import TwoToTwo, build_process
+from .card import SPEC
+from .process import ManyBody, TwoToTwo, build_process
 from .references import REFERENCES, Reference
 from .store import read_run
 
 __all__ = ["validate", "Thresholds", "OBSERVABLES", "observables_of"]
+
+SPEC_DEFAULTS = {k: key.default for k, key in SPEC["cuts"].items()}
 
 
 @dataclass(frozen=True)
@@ -48,6 +51,9 @@ OBSERVABLES = {
     "pt": ("transverse momentum p_T of the first outgoing particle [GeV]", "GeV"),
     "rapidity": ("rapidity y of the first outgoing particle (laboratory)", ""),
     "energy": ("energy E of the first outgoing particle (laboratory) [GeV]", "GeV"),
+    "x_quark": ("quark energy fraction 2E/√s (centre-of-mass frame)", ""),
+    "x_antiquark": ("antiquark energy fraction 2E/√s (centre-of-mass frame)", ""),
+    "x_gluon": ("gluon energy fraction 2E/√s (centre-of-mass frame)", ""),
 }
 
 
@@ -78,6 +84,37 @@ def _reference_grid(proc: TwoToTwo, ref: Reference, par: dict, s: float, interva
     return w, observables_of(lab[:, 0, :], proc.beta)
 
 
+def _dalitz_grid(proc: ManyBody, ref: Reference, par: dict, s: float, n: int):
+    """Gauss-Legendre nodes over the massless Dalitz triangle (x1 in [0, 1], x2 in [1 - x1, 1]), their
+    reference weights (pb) with the pair-mass cuts, and the energy-fraction observables."""
+    cuts = proc.cfg.cuts
+    others = {k: v for k, v in cuts.items() if k not in ("pair_mass_min", "particles")}
+    if any(v != SPEC_DEFAULTS[k] for k, v in others.items()) or "particles" in cuts:
+        raise UserError("validation of three-parton samples supports the Lorentz-invariant cuts.pair_mass_min "
+                        "on all partons only; this card also cuts on " + ", ".join(
+                            k for k, v in others.items() if v != SPEC_DEFAULTS[k]) or "particles")
+    g, gw = np.polynomial.legendre.leggauss(4)
+    edges = np.linspace(0.0, 1.0, n + 1)
+    half, mid = 0.5 * np.diff(edges), 0.5 * (edges[1:] + edges[:-1])
+    u = (mid[:, None] + half[:, None] * g[None, :]).ravel()
+    wu = (half[:, None] * gw[None, :]).ravel()
+    x1 = np.repeat(u, u.size)
+    v = np.tile(u, u.size)
+    wt = np.repeat(wu, u.size) * np.tile(wu, u.size) * x1  # dx2 = x1 dv
+    x2 = 1.0 - x1 + x1 * v
+    x3 = 2.0 - x1 - x2
+    ymin = cuts.get("pair_mass_min", 0.0) ** 2 / s
+    ok = (1 - x1 >= ymin) & (1 - x2 >= ymin) & (1 - x3 >= ymin) & (x1 < 1) & (x2 < 1)
+    w = np.where(ok, wt * ref.density(np.where(ok, x1, 0.5), np.where(ok, x2, 0.5), s, par), 0.0)
+    return w, {"x_quark": x1, "x_antiquark": x2, "x_gluon": x3}
+
+
+def _energy_fractions(p: np.ndarray, beta_cm: float, sqrt_s: float, idx: list[int]) -> dict[str, np.ndarray]:
+    g = 1.0 / math.sqrt((1.0 - beta_cm) * (1.0 + beta_cm))
+    e_cm = g * (p[:, :, 0] - beta_cm * p[:, :, 3])
+    return {name: 2.0 * e_cm[:, i] / sqrt_s for name, i in zip(("x_quark", "x_antiquark", "x_gluon"), idx)}
+
+
 def _canonical_params(rec: dict, proc: TwoToTwo) -> dict:
     names = rec["process"]["incoming"] + rec["process"]["outgoing"]
     masses = [rec["parameters"]["masses_GeV"][n] for n in names]
@@ -105,8 +142,14 @@ def validate(path: str | Path, out: str | Path | None = None, bins: int = 20,
     ref = REFERENCES[spec.reference]
     par = _canonical_params(rec, proc)
     s = rec["collider"]["sqrt_s_GeV"] ** 2
-    w_ref, o_ref = _reference_grid(proc, ref, par, s, 40000)
-    w_half, _ = _reference_grid(proc, ref, par, s, 20000)
+    three = isinstance(proc, ManyBody)
+    if three:
+        par["charge"] = proc.species[proc.canonical[2]].charge
+        w_ref, o_ref = _dalitz_grid(proc, ref, par, s, 600)
+        w_half, _ = _dalitz_grid(proc, ref, par, s, 300)
+    else:
+        w_ref, o_ref = _reference_grid(proc, ref, par, s, 40000)
+        w_half, _ = _reference_grid(proc, ref, par, s, 20000)
     sigma_ref = float(w_ref.sum())
     sigma_ref_num = abs(sigma_ref - float(w_half.sum()))
     sigma_ref_acc = ref.accuracy(s, par) * sigma_ref
@@ -133,8 +176,11 @@ def validate(path: str | Path, out: str | Path | None = None, bins: int = 20,
         flat = parts.flatten()
         n = int(parts.offsets[1].as_py() - parts.offsets[0].as_py()) if len(parts) else 0
         comp = np.stack([flat.field(k).to_numpy(zero_copy_only=False) for k in ("e", "px", "py", "pz")], -1)
-        first = comp.reshape(len(w), n, 4)[:, 2, :]
-        obs = observables_of(first, rec["collider"]["cm_beta_z"])
+        mom = comp.reshape(len(w), n, 4)
+        if three:
+            obs = _energy_fractions(mom, rec["collider"]["cm_beta_z"], math.sqrt(s), proc.canonical[2:5])
+        else:
+            obs = observables_of(mom[:, 2, :], rec["collider"]["cm_beta_z"])
         for name, h in hists.items():
             h.fill(obs[name], weight=w)
         sum_w += float(w.sum())

@@ -66,8 +66,8 @@ def test_process_not_in_the_model_lists_what_is():
 
 
 def test_unknown_model_lists_the_models():
-    msg = _error(GOOD.replace('"qed"', '"qcd"'))
-    assert "process.model: 'qcd' is not one of 'scalar', 'qed', 'electroweak'" in msg
+    msg = _error(GOOD.replace('"qed"', '"qcdd"'))
+    assert "process.model: 'qcdd' is not one of 'scalar', 'qed', 'electroweak', 'qcd'" in msg
 
 
 def test_energy_below_threshold():

@@ -101,6 +101,8 @@ def test_every_process_has_a_source_and_a_finite_positive_matrix_element():
     for model in MODELS.values():
         for spec in model.processes:
             assert spec.source and len(spec.source.split()) > 5, spec.label
+            if spec.momentum_matrix is not None:
+                continue  # the 2 -> 3 processes: tests/test_three_jets.py
             s, t, u = _massless_points(50)
             par = dict(model.resolve({}), m1=0.0005, m2=0.0005, m3=0.0005, m4=0.0005)
             if spec.model == "scalar":

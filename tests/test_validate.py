@@ -33,6 +33,8 @@ GOOD = {
                    INTEG + "[cuts]\ntheta_min_deg = 20\ntheta_max_deg = 160", SAMPLING),
     "z-bbbar": card("electroweak", ("e-", "e+"), ("b", "bbar"), "sqrt_s = 70.0", INTEG, SAMPLING),
     "zh": card("electroweak", ("e-", "e+"), ("Z", "H"), "sqrt_s = 350.0", INTEG, SAMPLING),
+    "three-jets": card("qcd", ("e-", "e+"), ("g", "d", "dbar"), "sqrt_s = 40.0", INTEG + "[cuts]\npair_mass_min = 8.0",
+                       "events = 20000\nweighted_events = 20000\nseed = 3"),
 }
 MUMU = card("qed", ("e-", "e+"), ("mu-", "mu+"), "sqrt_s = 10.0", INTEG, SAMPLING)
 
@@ -45,7 +47,8 @@ def test_validation_passes_on_good_samples(name, tmp_path):
         assert report["verdict"] == "pass", json.dumps(
             {k: report[k] for k in ("cross_section",)} | {"obs": [(o["name"], o["p_value"], o["max_pull"])
                                                                      for o in report["observables"]]})
-        assert {o["name"] for o in report["observables"]} >= {"cos_theta_cm", "pt"}
+        names = {o["name"] for o in report["observables"]}
+        assert names >= ({"x_quark", "x_gluon"} if name == "three-jets" else {"cos_theta_cm", "pt"})
 
 
 def test_a_distorted_matrix_element_fails(tmp_path, monkeypatch):

@@ -2,15 +2,17 @@
 
 from __future__ import annotations
 
-from . import electroweak, qed, scalar
+import itertools
+
+from . import electroweak, qcd, qed, scalar
 from .registry import ColourFlow, Model, Param, ProcessSpec
 
 __all__ = ["MODELS", "Model", "Param", "ProcessSpec", "ColourFlow", "find_process"]
 
-MODELS: dict[str, Model] = {m.name: m for m in (scalar.MODEL, qed.MODEL, electroweak.MODEL)}
+MODELS: dict[str, Model] = {m.name: m for m in (scalar.MODEL, qed.MODEL, electroweak.MODEL, qcd.MODEL)}
 
 
-def find_process(model: Model, incoming: tuple[str, str], outgoing: tuple[str, str]):
+def find_process(model: Model, incoming: tuple[str, str], outgoing: tuple[str, ...]):
     """The spec matching the particles in any order, with the permutations into canonical order.
 
     Returns (spec, in_perm, out_perm) where canonical incoming[i] = user incoming[in_perm[i]], or
@@ -20,7 +22,7 @@ def find_process(model: Model, incoming: tuple[str, str], outgoing: tuple[str, s
         for ip in ((0, 1), (1, 0)):
             if tuple(incoming[i] for i in ip) != spec.incoming:
                 continue
-            for op in ((0, 1), (1, 0)):
+            for op in itertools.permutations(range(len(outgoing))):
                 if tuple(outgoing[i] for i in op) == spec.outgoing:
                     return spec, ip, op
     return None

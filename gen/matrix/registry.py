@@ -12,6 +12,8 @@ frame.
 
 from __future__ import annotations
 
+import math
+from collections import Counter
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 
@@ -52,8 +54,8 @@ class ProcessSpec:
 
     model: str
     incoming: tuple[str, str]
-    outgoing: tuple[str, str]
-    matrix: MatrixElement
+    outgoing: tuple[str, ...]
+    matrix: MatrixElement | None
     source: str
     poles: str = "none"  # none | forward | backward | both (in cos theta of p3 against p1)
     pole_power: int = 2  # 2 for a 1/t^2 pole (massless exchange), 1 for 1/(t - m^2)
@@ -62,11 +64,17 @@ class ProcessSpec:
     colour: ColourFlow | None = None
     #: key of the independent analytic reference in `gen.references` used by `gen validate`
     reference: str | None = None
+    #: for more than two outgoing particles: |M|^2(p, params) of canonical momenta p (N, n, 4)
+    momentum_matrix: Callable[[np.ndarray, Mapping[str, float]], np.ndarray] | None = None
 
     @property
     def symmetry(self) -> float:
-        """Symmetry factor: 1/2 for two identical final-state particles, else 1 (stated once, here)."""
-        return 0.5 if self.outgoing[0] == self.outgoing[1] else 1.0
+        """Symmetry factor 1/prod(k!) for k identical final-state particles of each kind (1/2 for a
+        pair), else 1 (stated once, here)."""
+        f = 1.0
+        for k in Counter(self.outgoing).values():
+            f /= math.factorial(k)
+        return f
 
     @property
     def label(self) -> str:
