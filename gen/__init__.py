@@ -1,4 +1,4 @@
-"""gen: leading-order event generation for 2->2 scattering, written as Parquet.
+"""gen: leading-order event generation (2->2 and e+e- -> q qbar g), written as Parquet.
 
 The public API: `load_card` / `parse_card` turn a TOML card into a validated `RunConfig`;
 `run` integrates it and writes the run folder; `read_table`, `read_momenta` and `read_run` read
