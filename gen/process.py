@@ -19,6 +19,7 @@ from .errors import CardError
 from .kinematics import AngularMap, boost_z, kallen, momentum_2body, two_body
 from .matrix import MODELS, ProcessSpec, find_process
 from .particles import Species, species
+from .phasespace import sequential
 
 __all__ = ["TwoToTwo", "build_process", "Beams"]
 
@@ -102,10 +103,9 @@ def cut_mask(cuts: dict, out: np.ndarray, selected: list[int]) -> np.ndarray:
     return ok
 
 
-class TwoToTwo:
-    """A 2->2 process at fixed beam energies: one integration variable, the mapped cos(theta*)."""
-
-    ndim = 1
+class _FixedBeams:
+    """What every process at fixed beam energies shares: the spec in canonical order, resolved
+    parameters and masses, the beams, the threshold, the flux and the cuts."""
 
     def __init__(self, cfg: RunConfig):
         self.cfg = cfg
@@ -123,38 +123,49 @@ class TwoToTwo:
                                     f"the {model.name} model sets this mass from its parameters; set it there")
         self.species: tuple[Species, ...] = tuple(cfg.incoming) + tuple(cfg.outgoing)
         self.masses = tuple(self._mass(sp, model_masses) for sp in self.species)
-        # canonical order -> masses as the matrix element sees them
-        order = [self.in_perm[0], self.in_perm[1], 2 + self.out_perm[0], 2 + self.out_perm[1]]
-        self.canonical = order
-        cm = tuple(self.masses[i] for i in order)
-        self.me_params = dict(self.params, m1=cm[0], m2=cm[1], m3=cm[2], m4=cm[3])
+        # canonical particle k is the user's particle canonical[k]
+        self.canonical = [self.in_perm[0], self.in_perm[1]] + [2 + i for i in self.out_perm]
+        self.me_params = dict(self.params, **{f"m{k + 1}": self.masses[i] for k, i in enumerate(self.canonical)})
         self.beams = _beams(cfg, self.masses[0], self.masses[1])
         self.sqrt_s = self.beams.sqrt_s
         self.s = self.sqrt_s**2
-        m3, m4 = self.masses[2], self.masses[3]
-        if self.sqrt_s <= m3 + m4:
+        threshold = sum(self.masses[2:])
+        if self.sqrt_s <= threshold:
             raise CardError(cfg.source, self.beams.key,
-                            f"sqrt(s) = {self.sqrt_s:.6g} GeV is below the threshold {m3 + m4:.6g} GeV of "
+                            f"sqrt(s) = {self.sqrt_s:.6g} GeV is below the threshold {threshold:.6g} GeV of "
                             f"{' '.join(p.name for p in cfg.outgoing)}")
-        self.p_in = momentum_2body(self.sqrt_s, self.masses[0], self.masses[1])
-        self.p_out = momentum_2body(self.sqrt_s, m3, m4)
-        # flux 1/(2 lambda^1/2(s, m1^2, m2^2)) times two-body phase space p_f/(8 pi sqrt s) dcos
-        flux = 1.0 / (2.0 * math.sqrt(kallen(self.s, self.masses[0] ** 2, self.masses[1] ** 2)))
-        self.norm = HBARC2_PB * self.spec.symmetry * flux * self.p_out / (8.0 * math.pi * self.sqrt_s)
         self.beta = self.beams.beta
-        # the user's first outgoing particle is the one at theta*; is it canonical p3?
-        self.flip = self.out_perm[0] != 0
-        self.in_flip = self.in_perm[0] != 0
+        self.p_in = momentum_2body(self.sqrt_s, self.masses[0], self.masses[1])
+        # flux 1/(2 lambda^1/2(s, m1^2, m2^2))
+        self.flux = 1.0 / (2.0 * math.sqrt(kallen(self.s, self.masses[0] ** 2, self.masses[1] ** 2)))
         self.selected = [i for i, sp in enumerate(cfg.outgoing)
                          if "particles" not in cfg.cuts or sp.name in cfg.cuts["particles"]]
         self.has_cuts = has_cuts(cfg.cuts)
-        self.map = self._angular_map()
 
     def _mass(self, sp: Species, model_masses: dict[str, float]) -> float:
         for name, m in model_masses.items():
             if abs(species(name).pdg) == abs(sp.pdg):
                 return float(m)
         return float(self.cfg.masses.get(abs(sp.pdg), sp.mass))
+
+    def cut_mask(self, out):
+        """True for events whose outgoing particles (N, n, 4) pass the card's cuts."""
+        return cut_mask(self.cfg.cuts, out, self.selected)
+
+class TwoToTwo(_FixedBeams):
+    """A 2->2 process at fixed beam energies: one integration variable, the mapped cos(theta*)."""
+
+    ndim = 1
+
+    def __init__(self, cfg: RunConfig):
+        super().__init__(cfg)
+        self.p_out = momentum_2body(self.sqrt_s, self.masses[2], self.masses[3])
+        # flux times two-body phase space p_f/(8 pi sqrt s) dcos
+        self.norm = HBARC2_PB * self.spec.symmetry * self.flux * self.p_out / (8.0 * math.pi * self.sqrt_s)
+        # the user's first outgoing particle is the one at theta*; is it canonical p3?
+        self.flip = self.out_perm[0] != 0
+        self.in_flip = self.in_perm[0] != 0
+        self.map = self._angular_map()
 
     # --- angular variable ------------------------------------------------------------------
     def _angular_map(self) -> AngularMap:
@@ -205,10 +216,6 @@ class TwoToTwo:
         out = two_body(self.sqrt_s, self.masses[2], self.masses[3], self._cos_user(c), phi)
         return boost_z(out, self.beta)
 
-    def cut_mask(self, out):
-        """True for events whose outgoing particles (N, n, 4) pass the card's cuts."""
-        return cut_mask(self.cfg.cuts, out, self.selected)
-
     def _mandelstam(self, c):
         """s, t, u of the canonical order from the canonical cos(theta*) c (exact in the CM frame)."""
         m1, m2, m3, m4 = (self.me_params[k] for k in ("m1", "m2", "m3", "m4"))
@@ -242,7 +249,7 @@ class TwoToTwo:
         return p
 
 
-class ManyBody:
+class ManyBody(_FixedBeams):
     """2 -> n at fixed beam energies (n >= 3): sequential-splitting phase space on [0, 1]^(3n - 4).
 
     The |M|^2 of the spec takes the canonical momenta in the centre-of-mass frame; the cuts act on
@@ -250,32 +257,9 @@ class ManyBody:
     """
 
     def __init__(self, cfg: RunConfig):
-        from .phasespace import sequential
-
-        self._sequential = sequential
-        self.cfg = cfg
-        model = MODELS[cfg.model]
-        found = find_process(model, tuple(p.name for p in cfg.incoming), tuple(p.name for p in cfg.outgoing))
-        assert found is not None  # the card checked it
-        self.spec, self.in_perm, self.out_perm = found
-        self.params = model.resolve(cfg.parameters)
-        self.species: tuple[Species, ...] = tuple(cfg.incoming) + tuple(cfg.outgoing)
-        self.masses = tuple(float(cfg.masses.get(abs(sp.pdg), sp.mass)) for sp in self.species)
+        super().__init__(cfg)
         self.n_out = len(cfg.outgoing)
-        self.canonical = [self.in_perm[0], self.in_perm[1]] + [2 + i for i in self.out_perm]
-        self.me_params = dict(self.params, **{f"m{k + 1}": self.masses[i] for k, i in enumerate(self.canonical)})
-        self.beams = _beams(cfg, self.masses[0], self.masses[1])
-        self.sqrt_s = self.beams.sqrt_s
-        self.s = self.sqrt_s**2
-        if self.sqrt_s <= sum(self.masses[2:]):
-            raise CardError(cfg.source, self.beams.key, f"sqrt(s) = {self.sqrt_s:.6g} GeV is below the threshold "
-                            f"{sum(self.masses[2:]):.6g} GeV of {' '.join(p.name for p in cfg.outgoing)}")
-        self.beta = self.beams.beta
         self.ndim = 3 * self.n_out - 4
-        self.flux = 1.0 / (2.0 * math.sqrt(kallen(self.s, self.masses[0] ** 2, self.masses[1] ** 2)))
-        self.selected = [i for i, sp in enumerate(cfg.outgoing)
-                         if "particles" not in cfg.cuts or sp.name in cfg.cuts["particles"]]
-        self.has_cuts = has_cuts(cfg.cuts)
         if self.spec.needs_angular_cut and cfg.cuts.get("pair_mass_min", 0.0) <= 0.0:
             raise CardError(cfg.source, "cuts.pair_mass_min",
                             f"{self.spec.label} has soft and collinear singularities; keep every pair of partons "
@@ -283,17 +267,13 @@ class ManyBody:
                             "(0.1 sqrt(s), a y cut of 0.01)")
         if self.has_cuts and not np.any(self.cut_mask(self._lab_outgoing(np.random.default_rng(0).random((20000, self.ndim)))[0])):
             raise CardError(cfg.source, "cuts", "the cuts reject every event of this process at this energy")
-        p_in = momentum_2body(self.sqrt_s, self.masses[0], self.masses[1])
         e1 = (self.s + self.masses[0] ** 2 - self.masses[1] ** 2) / (2.0 * self.sqrt_s)
-        self._p1 = np.array([e1, 0.0, 0.0, p_in])
-        self._p2 = np.array([self.sqrt_s - e1, 0.0, 0.0, -p_in])
-
-    def cut_mask(self, out):
-        return cut_mask(self.cfg.cuts, out, self.selected)
+        self._p1 = np.array([e1, 0.0, 0.0, self.p_in])
+        self._p2 = np.array([self.sqrt_s - e1, 0.0, 0.0, -self.p_in])
 
     def _lab_outgoing(self, x):
         """Outgoing momenta (N, n, 4): centre-of-mass frame and laboratory, and the phase-space weight."""
-        cm, w_ps = self._sequential(x, self.sqrt_s, self.masses[2:])
+        cm, w_ps = sequential(x, self.sqrt_s, self.masses[2:])
         return boost_z(cm.copy(), self.beta), cm, w_ps
 
     def weights(self, x):

@@ -138,6 +138,15 @@ def _remove_stale_partials(folder: Path, names: list[str]) -> None:
                 pass
 
 
+def _stream(writer: EventWriter, layout: EventLayout, proc, rng, chunks, first_id: int, on_chunk) -> None:
+    """Write (points, weights) chunks as events with consecutive ids from first_id."""
+    serial = first_id
+    for x, w in chunks:
+        writer.write(layout.batch(serial, w, proc.momenta(x, rng)))
+        serial += x.shape[0]
+        on_chunk(x.shape[0])
+
+
 def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | None = None,
         grid: Grid | None = None, job: int | None = None, jobs: int = 1) -> RunResult:
     """Integrate the card's process (or take `grid`) and write its event files.
@@ -178,11 +187,9 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
             weight = xs.value / samp["events"]
             progress.stage("unweight", n_unw)
             wr = stack.enter_context(EventWriter(out / names["unweighted"], rg))
-            serial = index * JOB_STRIDE
-            for x in sampler.unweighted(rng_unw, n_unw, stats):
-                wr.write(layout.batch(serial, np.full(x.shape[0], weight), proc.momenta(x, rng_unw)))
-                serial += x.shape[0]
-                progress.update(stats.accepted, f"efficiency {stats.efficiency:.1%}")
+            chunks = ((x, np.full(x.shape[0], weight)) for x in sampler.unweighted(rng_unw, n_unw, stats))
+            _stream(wr, layout, proc, rng_unw, chunks, index * JOB_STRIDE,
+                    lambda n: progress.update(stats.accepted, f"efficiency {stats.efficiency:.1%}"))
             progress.end(f"efficiency {stats.efficiency:.1%}, {stats.overflow_events} above w_max")
             wr.finish(dict(base, created=now(), weighting="unweighted",
                            events={"count": wr.rows, "sum_weights_pb": wr.sum_w, "max_weight_pb": wr.max_w},
@@ -191,13 +198,13 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
         if n_w > 0:
             progress.stage("weighted", n_w)
             wr = stack.enter_context(EventWriter(out / names["weighted"], rg))
-            serial = index * JOB_STRIDE
-            drawn = 0
-            for x, w in sampler.weighted(rng_w, n_w):
-                wr.write(layout.batch(serial, w, proc.momenta(x, rng_w)))
-                serial += x.shape[0]
-                drawn += samp["chunk"]
-                progress.update(min(drawn, n_w))
+            drawn = [0]
+
+            def step(n):
+                drawn[0] += samp["chunk"]
+                progress.update(min(drawn[0], n_w))
+
+            _stream(wr, layout, proc, rng_w, sampler.weighted(rng_w, n_w), index * JOB_STRIDE, step)
             progress.end(f"{wr.rows} events, sum of weights {wr.sum_w:.5e} pb")
             wr.finish(dict(base, created=now(), weighting="weighted",
                            events={"count": wr.rows, "trials": n_w, "sum_weights_pb": wr.sum_w,

@@ -53,13 +53,15 @@ def arrow_schema() -> pa.Schema:
 def schema_markdown() -> str:
     """The schema as Markdown tables (the README's schema section is this text)."""
     doc = schema_doc()
-    out = [f"Schema version {doc['version']}. {doc['doc']}", "",
-           "Per event:", "", "| field | type | unit | meaning |", "|---|---|---|---|"]
-    out += [f"| `{f['name']}` | {f['type']}{' (nullable)' if f.get('nullable') else ''} | {f['unit']} | {f['doc']} |"
-            for f in doc["event_fields"]]
-    out += ["", "Per particle (`particles` items):", "", "| field | type | unit | meaning |", "|---|---|---|---|"]
-    out += [f"| `{f['name']}` | {f['type']}{' (nullable)' if f.get('nullable') else ''} | {f['unit']} | {f['doc']} |"
-            for f in doc["particle_fields"]]
+
+    def table(title, fields):
+        rows = [f"| `{f['name']}` | {f['type']}{' (nullable)' if f.get('nullable') else ''} | {f['unit']} | {f['doc']} |"
+                for f in fields]
+        return [title, "", "| field | type | unit | meaning |", "|---|---|---|---|", *rows]
+
+    out = [f"Schema version {doc['version']}. {doc['doc']}", ""]
+    out += table("Per event:", doc["event_fields"])
+    out += [""] + table("Per particle (`particles` items):", doc["particle_fields"])
     out += ["", f"Run record (JSON under the file metadata key `{doc['metadata_key']}`):", "",
             "| key | meaning |", "|---|---|"]
     out += [f"| `{m['key']}` | {m['doc']} |" for m in doc["metadata"]]
