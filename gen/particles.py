@@ -13,7 +13,7 @@ from functools import lru_cache
 
 from .errors import CardError, close_matches
 
-__all__ = ["Species", "species", "lookup", "SCALAR_ID", "known_names"]
+__all__ = ["Species", "species", "lookup", "SCALAR_ID", "known_names", "GROUPS", "HADRON_PARTONS"]
 
 #: PDG-style id this project gives the real scalar of the scalar model. The PDG numbering has no
 #: entry for it; the number is outside the ranges the numbering assigns (common practice, no source).
@@ -32,10 +32,20 @@ class Species:
     spin2: int  # twice the spin
     mass: float
     width: float
+    #: for a group (a name standing for any of several particles): the member names
+    members: tuple[str, ...] = ()
 
     @property
     def is_quark(self) -> bool:
         return abs(self.colour) == 3
+
+    @property
+    def is_group(self) -> bool:
+        return bool(self.members)
+
+    @property
+    def is_hadron(self) -> bool:
+        return self.name in HADRON_PARTONS
 
 
 # name, pdg, charge, t3 (of the left-handed particle state), colour, 2*spin
@@ -56,11 +66,26 @@ _TABLE = [
     ("Z", 23, 0, 0, 1, 2), ("W+", 24, 1, 0, 1, 2), ("W-", -24, -1, 0, 1, 2),
     ("H", 25, 0, 0, 1, 0),
     ("phi", SCALAR_ID, 0, 0, 1, 0),
+    ("p", 2212, 1, 0, 1, 1), ("pbar", -2212, -1, 0, 1, 1),
 ]
+
+_LIGHT = ("d", "u", "s", "c", "b")
+
+#: partons a hadron beam holds in the five-flavour scheme (densities from the parton-density set)
+HADRON_PARTONS: dict[str, tuple[str, ...]] = {
+    h: tuple(q + "bar" for q in reversed(_LIGHT)) + ("g",) + _LIGHT for h in ("p", "pbar")}
+
+#: names that stand for any of several particles in a hadron-collider process
+GROUPS: dict[str, tuple[str, ...]] = {
+    "jet": ("g",) + _LIGHT + tuple(q + "bar" for q in _LIGHT),
+    "quark": _LIGHT, "antiquark": tuple(q + "bar" for q in _LIGHT),
+    "l-": ("e-", "mu-"), "l+": ("e+", "mu+"),
+    "nu": ("nu_e", "nu_mu"), "nubar": ("nu_ebar", "nu_mubar"),
+}
 
 _ALIASES = {
     "electron": "e-", "positron": "e+", "photon": "gamma", "muon": "mu-", "antimuon": "mu+",
-    "gluon": "g", "higgs": "H", "Z0": "Z", "H0": "H", "a": "gamma",
+    "gluon": "g", "higgs": "H", "Z0": "Z", "H0": "H", "a": "gamma", "proton": "p", "antiproton": "pbar",
 }
 
 _BY_NAME = {row[0]: row for row in _TABLE}
@@ -68,7 +93,7 @@ _BY_PDG = {row[1]: row for row in _TABLE}
 
 
 def known_names() -> list[str]:
-    return [row[0] for row in _TABLE]
+    return [row[0] for row in _TABLE] + list(GROUPS)
 
 
 @lru_cache(maxsize=None)
@@ -86,6 +111,8 @@ def _pdg_mass_width(pdg: int) -> tuple[float, float]:
 @lru_cache(maxsize=None)
 def species(name: str) -> Species:
     """The species of a canonical name (see `known_names`), with PDG mass and width in GeV."""
+    if name in GROUPS:
+        return Species(name, 0, 0.0, 0.0, 1, 0, 0.0, 0.0, GROUPS[name])
     row = _BY_NAME[name]
     mass, width = _pdg_mass_width(abs(row[1]))
     return Species(row[0], row[1], float(row[2]), row[3], row[4], row[5], mass, width)
@@ -101,11 +128,11 @@ def lookup(token: object, source: str = "<card>", key: str = "") -> Species:
         raise CardError(source, key, f"PDG id {token} is not a particle gen knows; known ids: "
                         + ", ".join(str(r[1]) for r in _TABLE))
     name = _ALIASES.get(token, token)
-    if name in _BY_NAME:
+    if name in _BY_NAME or name in GROUPS:
         return species(name)
     try:
         return lookup(int(token), source, key)
     except ValueError:
         pass
-    hint = close_matches(token, list(_BY_NAME) + list(_ALIASES))
+    hint = close_matches(token, list(_BY_NAME) + list(_ALIASES) + list(GROUPS))
     raise CardError(source, key, f"unknown particle {token!r}{hint}; known names: " + ", ".join(known_names()))

@@ -21,7 +21,7 @@ import numpy as np
 
 from ..constants import ALPHA_0, ALPHA_MZ, G_FERMI, SW2_EFFECTIVE
 from ..particles import species
-from .registry import ColourFlow, Model, Param, ProcessSpec
+from .registry import ColourFlow, Model, Param, ProcessSpec, chain_flow
 
 SCHEMES = ("fermi", "thomson", "zpole")
 
@@ -44,30 +44,35 @@ def _amplitudes(x, qq, gl_e, gr_e, gl_f, gr_f, par, width: bool):
     return tuple(e2 * (pho + a * b * prop) for a, b in ((gl_e, gl_f), (gr_e, gr_f), (gl_e, gr_f), (gr_e, gl_f)))
 
 
-def make_fermion_pair(flavour: str):
-    """|M|^2 for e-(p1) e+(p2) -> f(p3) fbar(p4) through s-channel gamma and Z, full interference.
+def make_fermion_pair(flavour: str, initial: str = "e-"):
+    """|M|^2 for f'(p1) f'bar(p2) -> f(p3) fbar(p4) through s-channel gamma and Z, full
+    interference; f' = e- (a lepton collider) or a quark (Drell-Yan).
 
-    Helicity form with reduced amplitudes f_ij = e^2 [Q_e Q_f/s + g_i^e g_j^f / (s_W^2 c_W^2
-    (s - m_Z^2 + i m_Z Gamma_Z))], g_L = T3 - Q s_W^2, g_R = -Q s_W^2, massless electrons and the
+    Helicity form with reduced amplitudes f_ij = e^2 [Q_f' Q_f/s + g_i^f' g_j^f / (s_W^2 c_W^2
+    (s - m_Z^2 + i m_Z Gamma_Z))], g_L = T3 - Q s_W^2, g_R = -Q s_W^2, a massless initial pair and the
     final-fermion mass m kept:
-    (1/4) sum |M|^2 = N_c [(u - m^2)^2 (|f_LL|^2 + |f_RR|^2) + (t - m^2)^2 (|f_LR|^2 + |f_RL|^2)
-    + 2 m^2 s Re(f_LL f_LR* + f_RR f_RL*)], from the Dirac traces of the vector and axial currents.
-    For m = 0 it integrates to the textbook sigma = (4 pi alpha^2 / 3 s) N_c [Q_f^2 - 2 Q_f v_e v_f
-    chi_1 + (v_e^2 + a_e^2)(v_f^2 + a_f^2) chi_2] (Ellis, Stirling & Webber, QCD and Collider
-    Physics (1996), sec. 3.1); for the photon alone it is Peskin & Schroeder eq. 5.10.
-    For f = e (massless) the t-channel gamma and Z are added: (1/4) sum |M|^2 = u^2 (|f_LL(s) +
+    (1/4) sum |M|^2 = C [(u - m^2)^2 (|f_LL|^2 + |f_RR|^2) + (t - m^2)^2 (|f_LR|^2 + |f_RL|^2)
+    + 2 m^2 s Re(f_LL f_LR* + f_RR f_RL*)], from the Dirac traces of the vector and axial currents;
+    the colour factor C is N_c for a quark pair made, 1/N_c for a quark pair annihilating, else 1.
+    For m = 0 it integrates to the textbook sigma = (4 pi alpha^2 / 3 s) C [Q_f'^2 Q_f^2 - 2 Q_f' Q_f
+    v v' chi_1 + (v'^2 + a'^2)(v^2 + a^2) chi_2] (Ellis, Stirling & Webber, QCD and Collider
+    Physics (1996), sec. 3.1 and the Drell-Yan chapter; for the photon alone Peskin & Schroeder eq. 5.10).
+    For e- e+ -> e- e+ (massless) the t-channel gamma and Z are added: (1/4) sum |M|^2 = u^2 (|f_LL(s) +
     f_LL(t)|^2 + |f_RR(s) + f_RR(t)|^2) + t^2 (|f_LR(s)|^2 + |f_RL(s)|^2) + s^2 (|f_LR(t)|^2 +
     |f_RL(t)|^2) (the Bhabha amplitudes of Budny, Phys. Lett. B 55 (1975) 227, in helicity form;
     from memory), with no width in the space-like propagator.
     """
     nc = 3.0 if species(flavour).is_quark else 1.0
+    if species(initial).is_quark:
+        nc /= 3.0
+    bhabha = flavour == "e-" and initial == "e-"
 
     def matrix(s, t, u, par):
         sw2 = par["sw2"]
-        qe, gle, gre = _chiral("e-", sw2)
+        qe, gle, gre = _chiral(initial, sw2)
         qf, glf, grf = _chiral(flavour, sw2)
         ll, rr, lr, rl = _amplitudes(s, qe * qf, gle, gre, glf, grf, par, True)
-        if flavour == "e-":
+        if bhabha:
             tll, trr, tlr, trl = _amplitudes(t, qe * qf, gle, gre, glf, grf, par, False)
             return (u * u * (np.abs(ll + tll) ** 2 + np.abs(rr + trr) ** 2)
                     + t * t * (np.abs(lr) ** 2 + np.abs(rl) ** 2)
@@ -79,6 +84,35 @@ def make_fermion_pair(flavour: str):
 
     matrix.__doc__ = make_fermion_pair.__doc__
     return matrix
+
+
+def make_w_decay(incoming_fermion_first: bool, pair: str):
+    """|M|^2 for q(p1) qbar'(p2) -> W -> lepton pair (p3, p4) through an s-channel W with a fixed width:
+    (1/12) g^4 |V|^2 (p_f - p_fbar')^4 / ((s - m_W^2)^2 + m_W^2 Gamma_W^2), g^2 = e^2 / s_W^2, where
+    f is the incoming fermion (the quark, not the antiquark) and fbar' the outgoing antifermion
+    (V - A: the pair of left-handed lines; 1/12 = 1/4 spins x 1/3 colours). Integrated:
+    sigma = |V|^2 G_F^2 m_W^4 s / (18 pi |s - m_W^2 + i m_W Gamma_W|^2), which for Gamma_W -> 0 is
+    (pi sqrt(2) / 3) G_F m_W^2 |V|^2 delta(s - m_W^2) x Gamma(W -> l nu)/Gamma_W (Ellis, Stirling &
+    Webber (1996), the vector-boson chapter; from memory). |V|^2 is the parameter `ckm2_<pair>`."""
+    key = f"ckm2_{pair}"
+
+    def matrix(s, t, u, par):
+        g2 = 4.0 * math.pi * par["alpha"] / par["sw2"]
+        mw2 = par["m_W"] ** 2
+        x = t if incoming_fermion_first else u
+        return g2 * g2 * par[key] / 12.0 * x * x / ((s - mw2) ** 2 + mw2 * par["width_W"] ** 2)
+
+    matrix.__doc__ = make_w_decay.__doc__
+    return matrix
+
+
+def gluon_fusion_higgs(s, t, u, par):
+    """g g -> H through a top loop in the heavy-top limit, narrow width:
+    (1/256) sum |M|^2 = G_F alpha_s^2 s^2 / (288 sqrt(2) pi^2), so that sigma = sigma_0 m_H^2
+    delta(s - m_H^2) with sigma_0 = G_F alpha_s^2 / (288 sqrt(2) pi) (Djouadi, Phys. Rept. 457 (2008)
+    1, sec. 3.4, with the loop factor |(3/4) A_Q|^2 -> 1 for m_t -> infinity; from memory)."""
+    gf = par.get("g_fermi", G_FERMI)
+    return gf * par["alpha_s"] ** 2 * s * s / (288.0 * math.sqrt(2.0) * math.pi**2)
 
 
 def higgs_strahlung(s, t, u, par):
@@ -105,20 +139,28 @@ def _resolve(over):
     mz = float(over.get("m_Z", species("Z").mass))
     mw = float(over.get("m_W", species("W+").mass))
     gf = float(over.get("g_fermi", G_FERMI))
+    theta = float(over.get("cabibbo_angle", 0.0))
+    c2, s2 = math.cos(theta) ** 2, math.sin(theta) ** 2
     out: dict[str, float | str] = {"scheme": scheme, "m_Z": mz,
                                     "width_Z": float(over.get("width_Z", species("Z").width)),
-                                    "m_H": float(over.get("m_H", species("H").mass))}
+                                    "m_H": float(over.get("m_H", species("H").mass)),
+                                    "width_W": float(over.get("width_W", species("W+").width)),
+                                    "width_H": float(over.get("width_H", species("H").width)),
+                                    "cabibbo_angle": theta, "ckm2_ud": c2, "ckm2_us": s2, "ckm2_cd": s2, "ckm2_cs": c2}
     if scheme == "fermi":
         sw2 = 1.0 - (mw / mz) ** 2
         out.update(m_W=mw, g_fermi=gf, sw2=sw2, alpha=math.sqrt(2.0) * gf * mw * mw * sw2 / math.pi)
     elif scheme == "thomson":
         out.update(m_W=mw, alpha=float(over.get("alpha", ALPHA_0)), sw2=1.0 - (mw / mz) ** 2)
     else:
-        out.update(alpha=float(over.get("alpha", ALPHA_MZ)), sw2=float(over.get("sw2", SW2_EFFECTIVE)))
+        out.update(m_W=mw, alpha=float(over.get("alpha", ALPHA_MZ)), sw2=float(over.get("sw2", SW2_EFFECTIVE)))
     return out
 
 
 _QUARK_FLOW = ColourFlow(((0, 0), (0, 0), (1, 0), (0, 1)))
+_ANNIHILATION_FLOW = chain_flow(4, [(1, 0)])  # a quark pair annihilating into a colour singlet
+_LEPTONS = {"e-": "e+", "mu-": "mu+"}
+_NUS = {"e-": "nu_e", "mu-": "nu_mu"}
 
 _PROC = []
 for _f in ("e-", "mu-", "tau-", "d", "u", "s", "c", "b"):
@@ -130,6 +172,21 @@ for _f in ("e-", "mu-", "tau-", "d", "u", "s", "c", "b"):
         reference=None if _f == "e-" else f"electroweak.gamma_z.{_f}"))
 _PROC.append(ProcessSpec("electroweak", ("e-", "e+"), ("Z", "H"), higgs_strahlung, higgs_strahlung.__doc__,
                          reference="electroweak.higgs_strahlung"))
+# hadron colliders: Drell-Yan, W production with a CKM matrix, Higgs production by gluon fusion
+for _q in ("d", "u", "s", "c", "b"):
+    for _l, _lbar in _LEPTONS.items():
+        _PROC.append(ProcessSpec("electroweak", (_q, _q + "bar"), (_l, _lbar), make_fermion_pair(_l, _q),
+                                 make_fermion_pair.__doc__, flows=(_ANNIHILATION_FLOW,), resonance=("m_Z", "width_Z")))
+for _up, _down in (("u", "d"), ("u", "s"), ("c", "d"), ("c", "s")):
+    for _l, _lbar in _LEPTONS.items():
+        _nu = _NUS[_l]
+        # W+: u dbar -> l+ nu (the fermion u pairs with the antifermion l+ = p3); W-: d ubar -> l- nubar
+        _PROC.append(ProcessSpec("electroweak", (_up, _down + "bar"), (_lbar, _nu), make_w_decay(True, _up + _down),
+                                 make_w_decay.__doc__, flows=(_ANNIHILATION_FLOW,), resonance=("m_W", "width_W")))
+        _PROC.append(ProcessSpec("electroweak", (_down, _up + "bar"), (_l, _nu + "bar"), make_w_decay(False, _up + _down),
+                                 make_w_decay.__doc__, flows=(_ANNIHILATION_FLOW,), resonance=("m_W", "width_W")))
+_PROC.append(ProcessSpec("electroweak", ("g", "g"), ("H",), gluon_fusion_higgs, gluon_fusion_higgs.__doc__,
+                         flows=(chain_flow(3, [("loop", 0, 1)]),), strong_order=2, resonance=("m_H", "width_H")))
 
 MODEL = Model(
     name="electroweak",
@@ -140,11 +197,14 @@ MODEL = Model(
         "width_Z": Param(None, 0.0, 1e3, "GeV", "Z width in the s-channel propagator (PDG by default)"),
         "m_W": Param(None, 1.0, 1e4, "GeV", "W mass (PDG by default; fermi and thomson schemes)"),
         "m_H": Param(None, 1.0, 1e4, "GeV", "Higgs mass (PDG by default)"),
+        "width_W": Param(None, 0.0, 1e3, "GeV", "W width in the s-channel propagator (PDG by default)"),
+        "width_H": Param(None, 0.0, 1e3, "GeV", "Higgs width (PDG by default; gluon fusion is generated in the narrow-width limit)"),
+        "cabibbo_angle": Param(0.0, -1.6, 1.6, "rad", "Cabibbo angle of the two-generation quark mixing; 0 (default) is a diagonal CKM matrix"),
         "g_fermi": Param(G_FERMI, 1e-7, 1e-3, "GeV^-2", "Fermi constant (CODATA by default; fermi scheme)"),
         "alpha": Param(None, 1e-6, 1.0, "", "fine-structure constant (thomson: alpha(0); zpole: alpha(m_Z))"),
         "sw2": Param(SW2_EFFECTIVE, 0.0, 1.0, "", "sin^2 theta (zpole scheme only)"),
     },
     resolve=_resolve,
-    masses=lambda par: {"Z": par["m_Z"], "H": par["m_H"]},
+    masses=lambda par: {"Z": par["m_Z"], "H": par["m_H"], "W+": par["m_W"]},
     processes=tuple(_PROC),
 )

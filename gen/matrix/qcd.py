@@ -1,23 +1,28 @@
-"""Tree-level QCD: e+e- -> gamma* -> q qbar g (the `qcd` model), and the massless 2->2 parton
-|M|^2 / g_s^4 (colour and spin averaged over the initial and summed over the final state) for the
-coming hadron-collider processes.
+"""Tree-level QCD (the `qcd` model): e+e- -> gamma* -> q qbar g, the parton 2->2 processes for
+hadron colliders (the eight massless channels, heavy-quark pairs, prompt photons), each with its
+colour flows.
 
-The 2->2 parton channels follow
-Ellis, Stirling & Webber, QCD and Collider Physics (1996), Table 7.1, in the canonical order
-a(p1) b(p2) -> c(p3) d(p4), t = (p1 - p3)^2, u = (p1 - p4)^2. Identical final-state partons
-(q q -> q q, q qbar -> g g, g g -> g g) need the factor 1/2 when integrated over all angles. Not
-yet registered as processes: hadron-level generation (parton densities, channel sums and colour
-flow) is the next step.
+The massless 2->2 channels are |M|^2 / g_s^4 (colour and spin averaged over the initial and summed
+over the final state) of Ellis, Stirling & Webber, QCD and Collider Physics (1996), Table 7.1, in
+the canonical order a(p1) b(p2) -> c(p3) d(p4), t = (p1 - p3)^2, u = (p1 - p4)^2. Identical
+final-state partons (q q -> q q, q qbar -> g g, g g -> g g) carry the factor 1/2 of the registry.
+
+Colour flows are chosen per event with probability proportional to the leading-colour partial
+weights (the squared colour-ordered amplitudes at large N_c; for the heavy-quark channels those of
+the massless case with t -> t - m^2, u -> u - m^2). In a hadron run alpha_s comes per event from
+the running coupling at the renormalization scale; at fixed beam energies it is the model's
+`alpha_s` parameter.
 """
 
 from __future__ import annotations
 
 import math
 
+import numpy as np
 
 from ..constants import ALPHA_0
 from ..particles import species
-from .registry import ColourFlow, Model, Param, ProcessSpec
+from .registry import ColourFlow, Model, Param, ProcessSpec, chain_flow
 
 __all__ = ["CHANNELS", "MODEL", "three_jet"]
 
@@ -96,6 +101,155 @@ three_jet = make_three_jet("u")
 
 _FLOW = ColourFlow(((0, 0), (0, 0), (1, 0), (0, 2), (2, 1)))  # q carries 1, g carries 2 and anti-1, qbar anti-2
 
+
+# --- parton 2->2 processes -----------------------------------------------------------------------
+
+def _gs4(par):
+    a = par["alpha_s"]
+    return (4.0 * math.pi) ** 2 * a * a
+
+
+def _coupled(channel):
+    """|M|^2 = g_s^4 times a channel of Table 7.1 (one function object per channel, shared by all
+    flavours, so that a hadron run evaluates it once per phase-space point)."""
+
+    def matrix(s, t, u, par):
+        return _gs4(par) * channel(s, t, u)
+
+    matrix.__doc__ = f"g_s^4 times {channel.__doc__} (Ellis, Stirling & Webber (1996), Table 7.1)"
+    return matrix
+
+
+_M = {name: _coupled(fn) for name, fn in CHANNELS.items()}
+
+
+def heavy_qqbar(s, t, u, par):
+    """q qbar -> Q Qbar with the heavy-quark mass m = par["m3"]:
+    g_s^4 (4/9) [tau1^2 + tau2^2 + rho/2], tau1 = (m^2 - t)/s, tau2 = (m^2 - u)/s, rho = 4 m^2/s
+    (Combridge, Nucl. Phys. B 151 (1979) 429; Ellis, Stirling & Webber (1996) eq. 10.12; from memory)."""
+    m2 = par["m3"] ** 2
+    t1, t2, rho = (m2 - t) / s, (m2 - u) / s, 4.0 * m2 / s
+    return _gs4(par) * (4.0 / 9.0) * (t1 * t1 + t2 * t2 + 0.5 * rho)
+
+
+def heavy_gg(s, t, u, par):
+    """g g -> Q Qbar with the heavy-quark mass m = par["m3"]:
+    g_s^4 (1/(6 tau1 tau2) - 3/8) (tau1^2 + tau2^2 + rho - rho^2/(4 tau1 tau2)), tau and rho as for
+    q qbar -> Q Qbar (Combridge (1979); Ellis, Stirling & Webber (1996) eq. 10.12; from memory)."""
+    m2 = par["m3"] ** 2
+    t1, t2, rho = (m2 - t) / s, (m2 - u) / s, 4.0 * m2 / s
+    return _gs4(par) * (1.0 / (6.0 * t1 * t2) - 0.375) * (t1 * t1 + t2 * t2 + rho - rho * rho / (4.0 * t1 * t2))
+
+
+def _charge2(name):
+    q = species(name).charge
+    return q * q
+
+
+def make_photon_annihilation(flavour: str):
+    q2 = _charge2(flavour)
+
+    def matrix(s, t, u, par):
+        """q(p1) qbar(p2) -> g(p3) gamma(p4): e^2 e_q^2 g_s^2 (8/9)(t/u + u/t) (Ellis, Stirling &
+        Webber (1996), Table 7.2 at s + t + u = 0, N = 3)."""
+        return (4.0 * math.pi) ** 2 * par["alpha"] * par["alpha_s"] * q2 * (8.0 / 9.0) * (t / u + u / t)
+
+    return matrix
+
+
+def make_photon_compton(flavour: str):
+    q2 = _charge2(flavour)
+
+    def matrix(s, t, u, par):
+        """g(p1) q(p2) -> gamma(p3) q(p4): -e^2 e_q^2 g_s^2 (1/3)(s/u + u/s) (Ellis, Stirling &
+        Webber (1996), Table 7.2 at s + t + u = 0, N = 3)."""
+        return -(4.0 * math.pi) ** 2 * par["alpha"] * par["alpha_s"] * q2 / 3.0 * (s / u + u / s)
+
+    return matrix
+
+
+def _ratio(a, b):
+    """A flow weight a/b of two (negative or positive) invariants, as a magnitude."""
+    return lambda s, t, u, par: np.abs(a(s, t, u, par) / b(s, t, u, par))
+
+
+_S = lambda s, t, u, par: s  # noqa: E731
+_T = lambda s, t, u, par: t  # noqa: E731
+_U = lambda s, t, u, par: u  # noqa: E731
+_MT = lambda s, t, u, par: t - par["m3"] ** 2  # noqa: E731
+_MU = lambda s, t, u, par: u - par["m3"] ** 2  # noqa: E731
+_W_T = lambda s, t, u, par: (s * s + u * u) / (t * t)  # noqa: E731  t-channel gluon
+_W_U = lambda s, t, u, par: (s * s + t * t) / (u * u)  # noqa: E731  u-channel gluon
+_W_S = lambda s, t, u, par: (t * t + u * u) / (s * s)  # noqa: E731  s-channel gluon
+
+
+def _flows(*items):
+    return tuple(chain_flow(4, chains, weight) for chains, weight in items)
+
+
+# flows in canonical order; chains as in `chain_flow` (0, 1 incoming; 2, 3 outgoing)
+_FLOWS = {
+    "qq'": _flows(([(3, 0), (2, 1)], None)),                     # q q' -> q q' (t-channel gluon)
+    "qqbar'": _flows(([(1, 0), (2, 3)], None)),                  # q qbar' -> q qbar'
+    "qbarqbar'": _flows(([(0, 3), (1, 2)], None)),               # qbar qbar' -> qbar qbar'
+    "qq": _flows(([(3, 0), (2, 1)], _W_T), ([(2, 0), (3, 1)], _W_U)),
+    "qbarqbar": _flows(([(0, 3), (1, 2)], _W_T), ([(0, 2), (1, 3)], _W_U)),
+    "s-channel": _flows(([(2, 0), (1, 3)], None)),               # q qbar -> q' qbar' and -> Q Qbar
+    "qqbar": _flows(([(2, 0), (1, 3)], _W_S), ([(1, 0), (2, 3)], _W_T)),
+    "qqbar->gg": _flows(([(1, 3, 2, 0)], _ratio(_U, _T)), ([(1, 2, 3, 0)], _ratio(_T, _U))),
+    "gg->qqbar": _flows(([(2, 0, 1, 3)], _ratio(_U, _T)), ([(2, 1, 0, 3)], _ratio(_T, _U))),
+    "gg->QQbar": _flows(([(2, 0, 1, 3)], _ratio(_MU, _MT)), ([(2, 1, 0, 3)], _ratio(_MT, _MU))),
+    "gq": _flows(([(3, 0, 2, 1)], _ratio(_S, _U)), ([(3, 2, 0, 1)], _ratio(_U, _S))),
+    "gqbar": _flows(([(1, 2, 0, 3)], _ratio(_S, _U)), ([(1, 0, 2, 3)], _ratio(_U, _S))),
+    "gg": tuple(chain_flow(4, [("loop",) + ring], w) for ring, w in (
+        ((0, 1, 2, 3), lambda s, t, u, par: t * t), ((0, 3, 2, 1), lambda s, t, u, par: t * t),
+        ((0, 2, 3, 1), lambda s, t, u, par: u * u), ((0, 1, 3, 2), lambda s, t, u, par: u * u),
+        ((0, 3, 1, 2), lambda s, t, u, par: s * s), ((0, 2, 1, 3), lambda s, t, u, par: s * s))),
+    "qqbar->g gamma": _flows(([(1, 2, 0)], None)),
+    "g q->gamma q": _flows(([(3, 0, 1)], None)),
+    "g qbar->gamma qbar": _flows(([(1, 0, 3)], None)),
+}
+
+_SRC = "Ellis, Stirling & Webber, QCD and Collider Physics (1996), Table 7.1"
+
+
+def _partonic() -> list[ProcessSpec]:
+    light = ("d", "u", "s", "c", "b")
+    bar = {q: q + "bar" for q in light}
+    out: list[ProcessSpec] = []
+
+    def add(inc, outg, matrix, flows, poles="both", power=2, source=_SRC, order=2):
+        out.append(ProcessSpec("qcd", inc, outg, matrix, source, poles=poles, pole_power=power,
+                               needs_angular_cut=poles != "none", flows=flows, strong_order=order))
+
+    for i, q in enumerate(light):
+        qb = bar[q]
+        for r in light[i + 1:]:
+            add((q, r), (q, r), _M["qq'->qq'"], _FLOWS["qq'"])
+            add((qb, bar[r]), (qb, bar[r]), _M["qq'->qq'"], _FLOWS["qbarqbar'"])
+        for r in light:
+            if r != q:
+                add((q, bar[r]), (q, bar[r]), _M["qq'->qq'"], _FLOWS["qqbar'"])
+                add((q, qb), (r, bar[r]), _M["qqbar->q'qbar'"], _FLOWS["s-channel"], poles="none")
+        add((q, q), (q, q), _M["qq->qq"], _FLOWS["qq"])
+        add((qb, qb), (qb, qb), _M["qq->qq"], _FLOWS["qbarqbar"])
+        add((q, qb), (q, qb), _M["qqbar->qqbar"], _FLOWS["qqbar"])
+        add((q, qb), ("g", "g"), _M["qqbar->gg"], _FLOWS["qqbar->gg"])
+        add(("g", "g"), (q, qb), _M["gg->qqbar"], _FLOWS["gg->qqbar"])
+        add(("g", q), ("g", q), _M["gq->gq"], _FLOWS["gq"])
+        add(("g", qb), ("g", qb), _M["gq->gq"], _FLOWS["gqbar"])
+        add((q, qb), ("t", "tbar"), heavy_qqbar, _FLOWS["s-channel"], poles="none", source=heavy_qqbar.__doc__)
+        add((q, qb), ("g", "gamma"), make_photon_annihilation(q), _FLOWS["qqbar->g gamma"], power=1,
+            source=make_photon_annihilation(q).__doc__, order=1)
+        add(("g", q), ("gamma", q), make_photon_compton(q), _FLOWS["g q->gamma q"], poles="backward", power=1,
+            source=make_photon_compton(q).__doc__, order=1)
+        add(("g", qb), ("gamma", qb), make_photon_compton(q), _FLOWS["g qbar->gamma qbar"], poles="backward",
+            power=1, source=make_photon_compton(q).__doc__, order=1)
+    add(("g", "g"), ("g", "g"), _M["gg->gg"], _FLOWS["gg"])
+    add(("g", "g"), ("t", "tbar"), heavy_gg, _FLOWS["gg->QQbar"], poles="none", source=heavy_gg.__doc__)
+    return out
+
+
 MODEL = Model(
     name="qcd",
     doc="Tree-level QCD radiation: e+e- -> gamma* -> q qbar g with a fixed alpha_s (cut away soft and collinear gluons).",
@@ -106,5 +260,5 @@ MODEL = Model(
         ProcessSpec("qcd", ("e-", "e+"), (q, q + "bar", "g"), None, make_three_jet(q).__doc__,
                     needs_angular_cut=True, colour=_FLOW, momentum_matrix=make_three_jet(q),
                     reference="qcd.three_jet")
-        for q in ("d", "u", "s", "c", "b")),
+        for q in ("d", "u", "s", "c", "b")) + tuple(_partonic()),
 )

@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Param", "ProcessSpec", "Model", "ColourFlow"]
+__all__ = ["Param", "ProcessSpec", "Model", "ColourFlow", "chain_flow"]
 
 #: |M|^2(s, t, u, params) -> array; s, t, u are float64 arrays of equal shape (GeV^2).
 MatrixElement = Callable[[np.ndarray, np.ndarray, np.ndarray, Mapping[str, float]], np.ndarray]
@@ -39,13 +39,42 @@ class Param:
 
 @dataclass(frozen=True)
 class ColourFlow:
-    """Colour tags of the four particles in canonical order: (colour, anticolour) pairs, tags >= 1.
-
-    Only processes with a single colour flow are in the 2->2 lepton library (a quark-antiquark pair
-    from a colour singlet); zero means no colour.
-    """
+    """Colour tags of the particles in canonical order: (colour, anticolour) pairs, tags >= 1, zero
+    for none. A process with several flows gives each a `weight(s, t, u, par)`: its leading-colour
+    partial weight, to which the probability of choosing the flow at a phase-space point is
+    proportional."""
 
     tags: tuple[tuple[int, int], ...]
+    weight: Callable[[np.ndarray, np.ndarray, np.ndarray, Mapping[str, float]], np.ndarray] | None = None
+
+
+def chain_flow(n: int, chains, weight=None, n_in: int = 2) -> ColourFlow:
+    """A colour flow from colour-ordered chains, in the picture where every particle is outgoing.
+
+    Each chain is a tuple of canonical indices (0-based). An open chain runs from a colour-triplet
+    end (an outgoing quark, or an incoming antiquark) through gluons to an antitriplet end (an
+    outgoing antiquark, or an incoming quark); a chain whose first entry is "loop" is a ring of
+    gluons. Along a chain each particle's colour line is the next one's anticolour line. An incoming
+    particle is an outgoing one crossed: its colour and anticolour swap. Colour is conserved by
+    construction.
+    """
+    col = [0] * n
+    anti = [0] * n
+    tag = 0
+    for chain in chains:
+        ring = chain[0] == "loop"
+        idx = list(chain[1:] if ring else chain)
+        tag += 1
+        col[idx[0]] = tag
+        for j in idx[1:]:
+            anti[j] = tag
+            if j != idx[-1] or ring:
+                tag += 1
+                col[j] = tag
+        if ring:
+            anti[idx[0]] = tag
+    tags = tuple((anti[i], col[i]) if i < n_in else (col[i], anti[i]) for i in range(n))
+    return ColourFlow(tags, weight)
 
 
 @dataclass(frozen=True)
@@ -66,6 +95,16 @@ class ProcessSpec:
     reference: str | None = None
     #: for more than two outgoing particles: |M|^2(p, params) of canonical momenta p (N, n, 4)
     momentum_matrix: Callable[[np.ndarray, Mapping[str, float]], np.ndarray] | None = None
+    #: several colour flows, each with its leading-colour weight (instead of the single `colour`)
+    flows: tuple[ColourFlow, ...] = ()
+    #: power of alpha_s in |M|^2 (alpha_s then comes per event from par["alpha_s"])
+    strong_order: int = 0
+    #: s-channel resonance of the process: the model parameters of its mass and width
+    resonance: tuple[str, str] | None = None
+
+    @property
+    def colour_flows(self) -> tuple[ColourFlow, ...]:
+        return self.flows or ((self.colour,) if self.colour is not None else ())
 
     @property
     def symmetry(self) -> float:
