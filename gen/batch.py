@@ -26,6 +26,7 @@ import pyarrow.parquet as pq
 
 from .errors import OutputError, UserError
 from .progress import Progress
+from .run import by_subprocess
 from .store import EventWriter, event_files, read_run
 
 __all__ = ["MergeError", "collect_parts", "check_parts", "combine", "merge"]
@@ -174,9 +175,10 @@ def merge(paths: list[str | Path], out: str | Path, progress: Progress | None = 
             if kind == "unweighted":
                 rec["cross_section"] = dict(rec["cross_section"], total=dict(rec["cross_section"]["total"], **{
                     k: combined[k] for k in ("value_pb", "error_pb")}), combination=combined, method=combined["method"])
-                rec["cross_section"]["by_subprocess"] = {
-                    k: {"value_pb": combined["value_pb"], "error_pb": combined["error_pb"]}
-                    for k in rec["cross_section"]["by_subprocess"]}
+                labels = sorted({k for pf in files for k in pf.record["cross_section"]["by_subprocess"]})
+                counts = np.array([sum(pf.record["cross_section"]["by_subprocess"].get(k, {}).get("events", 0)
+                                       for pf in files) for k in labels])
+                rec["cross_section"]["by_subprocess"] = by_subprocess(labels, counts, counts * 0.0, combined["value_pb"], True)
                 rec["unweighting"] = {k: combined[k] for k in ("efficiency", "overflow_events", "overflow_share")}
                 rec["unweighting"].update(trials=combined["sampling"]["trials"], accepted=combined["events"],
                                           max_weight_pb=files[0].record["unweighting"]["max_weight_pb"])

@@ -14,8 +14,8 @@ from pathlib import Path
 from typing import Any
 
 from .errors import CardError, close_matches
-from .matrix import MODELS, find_process
-from .particles import Species, lookup
+from .matrix import MODELS, find_process, find_subprocesses
+from .particles import HADRON_PARTONS, Species, lookup
 
 __all__ = ["RunConfig", "load_card", "parse_card", "SPEC", "reference_markdown"]
 
@@ -40,8 +40,9 @@ _NUM = (int, float)
 SPEC: dict[str, dict[str, Key]] = {
     "process": {
         "model": Key(str, required=True, choices=tuple(MODELS), doc="model of the process library"),
-        "incoming": Key(list, required=True, doc="two incoming particles (names or PDG ids); the first moves along +z"),
-        "outgoing": Key(list, required=True, doc="two or three outgoing particles (names or PDG ids)"),
+        "incoming": Key(list, required=True, doc="two incoming particles (names or PDG ids), or two hadrons (p, pbar); the first moves along +z"),
+        "outgoing": Key(list, required=True, doc="two or three outgoing particles (names or PDG ids); with hadron "
+                        "beams one or two, and group names (jet, quark, antiquark, l-, l+, nu, nubar) stand for any of their members"),
     },
     "collider": {
         "sqrt_s": Key(_NUM, lo=0.0, unit="GeV", doc="head-on beams of equal energy sqrt_s/2 (laboratory = centre-of-mass frame)"),
@@ -59,6 +60,25 @@ SPEC: dict[str, dict[str, Key]] = {
         "mass_min": Key(_NUM, 0.0, 0.0, None, "GeV", "smallest invariant mass of the selected particles together"),
         "mass_max": Key(_NUM, math.inf, 0.0, None, "GeV", "largest invariant mass of the selected particles together"),
         "pair_mass_min": Key(_NUM, 0.0, 0.0, None, "GeV", "smallest invariant mass of every pair of selected particles"),
+        "eta_max": Key(_NUM, math.inf, 0.0, None, "", "largest |pseudorapidity| in the laboratory, each particle"),
+        "rapidity_max": Key(_NUM, math.inf, 0.0, None, "", "largest |rapidity| in the laboratory, each particle"),
+        "delta_r_min": Key(_NUM, 0.0, 0.0, None, "", "smallest Delta R = sqrt(Delta eta^2 + Delta phi^2) of every pair of selected particles"),
+    },
+    "partons": {
+        "set": Key(str, "genbench-lo", doc="parton-density set: a name searched in LHAPDF_DATA_PATH and the sets shipped "
+                   "with gen, or a set's folder (default: the shipped benchmark set, not a fit to data)"),
+        "member": Key(int, 0, 0, 10000, "", "member of the set"),
+        "alpha_s": Key(str, "set", doc="running coupling: from the set's metadata, or run at one or two loops from alpha_s_mz",
+                       choices=("set", "one_loop", "two_loop")),
+        "alpha_s_mz": Key(_NUM, 0.118, 0.05, 0.3, "", "alpha_s(m_Z) for alpha_s = one_loop or two_loop"),
+    },
+    "scales": {
+        "renormalization": Key((str, int, float), "auto", unit="GeV", doc="scale of alpha_s: sqrt_shat, half_ht (half "
+                               "the scalar sum of the outgoing transverse masses), pt (of the first outgoing particle), a "
+                               "number in GeV, or auto: half_ht when coloured or massive particles come out, else sqrt_shat; "
+                               "dynamic scales are floored at 1 GeV"),
+        "factorization": Key((str, int, float), "auto", unit="GeV", doc="scale of the parton densities (same choices)"),
+        "factor": Key(_NUM, 1.0, 0.01, 100.0, "", "multiplies both scales (vary it to estimate the scale uncertainty)"),
     },
     "integration": {
         "warmup_iterations": Key(int, 5, 0, 1000, "", "vegas iterations that adapt the grid and are discarded"),
@@ -94,6 +114,8 @@ class RunConfig:
     masses: dict[int, float]  # by |PDG id|: a particle and its antiparticle
     widths: dict[int, float]
     cuts: dict[str, Any]
+    partons: dict[str, Any]
+    scales: dict[str, Any]
     integration: dict[str, Any]
     sampling: dict[str, Any]
     output: dict[str, Any]
@@ -206,15 +228,28 @@ def parse_card(text: str, source: str = "<card>") -> RunConfig:
     proc = _section(source, doc, "process")
     incoming = _particles(source, "process.incoming", proc["incoming"], 2)
     outgoing = _particles(source, "process.outgoing", proc["outgoing"], None)
-    if len(outgoing) not in (2, 3):
-        raise CardError(source, "process.outgoing", f"expected 2 or 3 particles, found {len(outgoing)}")
     model = MODELS[proc["model"]]
-    found = find_process(model, tuple(p.name for p in incoming), tuple(p.name for p in outgoing))
-    if found is None:
-        listing = "; ".join(s.label for s in model.processes)
-        raise CardError(source, "process", f"model {model.name!r} has no process "
-                        f"{' '.join(p.name for p in incoming)} -> {' '.join(p.name for p in outgoing)}; "
-                        f"it has: {listing}")
+    hadrons = [p.is_hadron for p in incoming]
+    if any(hadrons) and not all(hadrons):
+        raise CardError(source, "process.incoming", "give two hadrons (p, pbar) or two particles; lepton-hadron "
+                        "collisions are not supported")
+    if all(hadrons):
+        _check_hadron_process(source, model, incoming, outgoing, doc)
+    else:
+        for i, p in enumerate(incoming + outgoing):
+            if p.is_group:
+                raise CardError(source, "process.outgoing", f"the group {p.name!r} needs hadron beams; name the particles")
+        for sec in ("partons", "scales"):
+            if sec in doc:
+                raise CardError(source, sec, f"[{sec}] applies to hadron beams (p, pbar) only")
+        if len(outgoing) not in (2, 3):
+            raise CardError(source, "process.outgoing", f"expected 2 or 3 particles, found {len(outgoing)}")
+        found = find_process(model, tuple(p.name for p in incoming), tuple(p.name for p in outgoing))
+        if found is None:
+            listing = "; ".join(s.label for s in model.processes)
+            raise CardError(source, "process", f"model {model.name!r} has no process "
+                            f"{' '.join(p.name for p in incoming)} -> {' '.join(p.name for p in outgoing)}; "
+                            f"it has: {listing}")
     collider = _section(source, doc, "collider")
     given = [k for k in SPEC["collider"] if k in collider]
     if len(given) != 1:
@@ -240,8 +275,37 @@ def parse_card(text: str, source: str = "<card>") -> RunConfig:
     return RunConfig(
         source=source, text=text, model=model.name, incoming=incoming, outgoing=outgoing,
         collider=collider, parameters=params, masses=masses, widths=widths, cuts=cuts,
+        partons=_section(source, doc, "partons"), scales=_scales(source, _section(source, doc, "scales")),
         integration=_section(source, doc, "integration"), sampling=_section(source, doc, "sampling"),
         output=_section(source, doc, "output"))
+
+
+SCALE_CHOICES = ("auto", "sqrt_shat", "half_ht", "pt")
+
+
+def _scales(source: str, sc: dict) -> dict:
+    for k in ("renormalization", "factorization"):
+        v = sc[k]
+        if isinstance(v, str) and v not in SCALE_CHOICES:
+            raise CardError(source, f"scales.{k}", f"{v!r} is not one of {', '.join(map(repr, SCALE_CHOICES))} "
+                            "or a number in GeV" + close_matches(v, SCALE_CHOICES))
+        if not isinstance(v, str) and not v > 0:
+            raise CardError(source, f"scales.{k}", f"a fixed scale must be positive, found {v!r} GeV")
+    return sc
+
+
+def _check_hadron_process(source, model, incoming, outgoing, doc) -> None:
+    if len(outgoing) not in (1, 2):
+        raise CardError(source, "process.outgoing", f"with hadron beams expected 1 or 2 particles, found {len(outgoing)}")
+    if "beam_energy" in doc.get("collider", {}):
+        raise CardError(source, "collider.beam_energy", "hadron beams collide head-on: give sqrt_s or beam_energies")
+    subs = find_subprocesses(model, tuple(p.name for p in incoming), tuple(outgoing))
+    if not subs:
+        partonic = sorted({s.label for s in model.processes if len(s.outgoing) == len(outgoing)
+                           and all(p in HADRON_PARTONS["p"] for p in s.incoming)})
+        raise CardError(source, "process", f"model {model.name!r} has no parton process for "
+                        f"{' '.join(p.name for p in incoming)} -> {' '.join(p.name for p in outgoing)}; its parton "
+                        "processes: " + "; ".join(partonic[:40]) + (" ..." if len(partonic) > 40 else ""))
 
 
 def load_card(path: str | Path) -> RunConfig:

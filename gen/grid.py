@@ -22,7 +22,6 @@ import vegas
 from . import __version__
 from .card import RunConfig
 from .errors import UserError
-from .process import TwoToTwo
 from .progress import Progress
 from .sampler import CrossSection, MapSampler, adapt
 
@@ -49,6 +48,7 @@ def physics_digest(cfg: RunConfig) -> str:
         "masses": {str(k): v for k, v in sorted(cfg.masses.items())},
         "widths": {str(k): v for k, v in sorted(cfg.widths.items())},
         "cuts": cfg.cuts, "integration": cfg.integration, "seed": cfg.sampling["seed"],
+        **({"partons": cfg.partons, "scales": cfg.scales} if cfg.incoming[0].is_hadron else {}),
         "calibration_points": cfg.sampling["calibration_points"],
     }
     return hashlib.sha256(json.dumps(doc, sort_keys=True).encode()).hexdigest()[:32]
@@ -141,7 +141,7 @@ class Grid:
                             "adapt a new grid with `gen adapt`")
 
 
-def make_grid(proc: TwoToTwo, cfg: RunConfig, progress: Progress | None = None) -> Grid:
+def make_grid(proc, cfg: RunConfig, progress: Progress | None = None) -> Grid:
     """Adapt vegas to the process, then find the maximum weight on the frozen grid."""
     progress = progress or Progress(enabled=False)
     integ = cfg.integration

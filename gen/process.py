@@ -16,12 +16,13 @@ import numpy as np
 from .card import RunConfig
 from .constants import HBARC2_PB
 from .errors import CardError
+from .events import EventData, EventLayout
 from .kinematics import AngularMap, boost_z, kallen, momentum_2body, two_body
 from .matrix import MODELS, ProcessSpec, find_process
 from .particles import Species, species
 from .phasespace import sequential
 
-__all__ = ["TwoToTwo", "build_process", "Beams"]
+__all__ = ["TwoToTwo", "ManyBody", "build_process", "Beams", "process_label"]
 
 
 @dataclass(frozen=True)
@@ -71,7 +72,9 @@ def _beams(cfg: RunConfig, m1: float, m2: float) -> Beams:
 def has_cuts(c: dict) -> bool:
     return (c["theta_min_deg"] > 0 or c["theta_max_deg"] < 180 or c["energy_min"] > 0
             or c["energy_max"] < math.inf or c["pt_min"] > 0 or c["pt_max"] < math.inf
-            or c["mass_min"] > 0 or c["mass_max"] < math.inf or c.get("pair_mass_min", 0.0) > 0)
+            or c["mass_min"] > 0 or c["mass_max"] < math.inf or c.get("pair_mass_min", 0.0) > 0
+            or c.get("eta_max", math.inf) < math.inf or c.get("rapidity_max", math.inf) < math.inf
+            or c.get("delta_r_min", 0.0) > 0)
 
 
 def _inv_mass(p):
@@ -100,6 +103,22 @@ def cut_mask(cuts: dict, out: np.ndarray, selected: list[int]) -> np.ndarray:
         for i in range(len(selected)):
             for j in range(i + 1, len(selected)):
                 ok &= _inv_mass(sel[:, i] + sel[:, j]) >= cuts["pair_mass_min"]
+    eta_cut, y_cut, dr_cut = cuts.get("eta_max", math.inf), cuts.get("rapidity_max", math.inf), cuts.get("delta_r_min", 0.0)
+    if eta_cut < math.inf or dr_cut > 0.0:
+        with np.errstate(divide="ignore", invalid="ignore"):  # along the beam: eta = +-inf (nan counts as outside)
+            eta = np.nan_to_num(np.arcsinh(sel[..., 3] / pt), nan=np.inf)
+        if eta_cut < math.inf:
+            ok &= np.all(np.abs(eta) <= eta_cut, axis=1)
+        if dr_cut > 0.0:
+            phi = np.arctan2(sel[..., 2], sel[..., 1])
+            for i in range(len(selected)):
+                for j in range(i + 1, len(selected)):
+                    dphi = np.abs(np.angle(np.exp(1j * (phi[:, i] - phi[:, j]))))
+                    ok &= np.hypot(eta[:, i] - eta[:, j], dphi) >= dr_cut
+    if y_cut < math.inf:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            y = 0.5 * np.log((e + sel[..., 3]) / (e - sel[..., 3]))
+        ok &= np.all(np.abs(np.nan_to_num(y, nan=np.inf)) <= y_cut, axis=1)
     return ok
 
 
@@ -151,6 +170,41 @@ class _FixedBeams:
     def cut_mask(self, out):
         """True for events whose outgoing particles (N, n, 4) pass the card's cuts."""
         return cut_mask(self.cfg.cuts, out, self.selected)
+
+    def events(self, x, rng: np.random.Generator) -> EventData:
+        return EventData(self.momenta(x, rng))
+
+    def event_layout(self) -> EventLayout:
+        n = len(self.species)
+        colour = np.zeros(n, np.int32)
+        anticolour = np.zeros(n, np.int32)
+        if self.spec.colour is not None:
+            for canon_k, user_i in enumerate(self.canonical):  # canonical particle k is the user's user_i
+                colour[user_i], anticolour[user_i] = self.spec.colour.tags[canon_k]
+        return EventLayout(
+            pdg=np.array([p.pdg for p in self.species], np.int32),
+            roles=["incoming", "incoming"] + ["outgoing"] * (n - 2),
+            parent_first=np.array([-1, -1] + [0] * (n - 2), np.int16),
+            parent_last=np.array([-1, -1] + [1] * (n - 2), np.int16),
+            colour=colour, anticolour=anticolour,
+            mass=np.array(self.masses, np.float64),
+            subprocesses=[process_label(self.cfg)], scale=self.sqrt_s, alpha_em=float(self.params.get("alpha", 0.0)),
+            alpha_s=self.params.get("alpha_s"))
+
+    def record_sections(self) -> dict:
+        """The process, collider and parameter sections of the file metadata."""
+        cfg = self.cfg
+        return {
+            "process": {"model": cfg.model, "incoming": [p.name for p in cfg.incoming],
+                        "outgoing": [p.name for p in cfg.outgoing], "label": process_label(cfg),
+                        "symmetry_factor": self.spec.symmetry, "source": " ".join(self.spec.source.split())},
+            "collider": {"sqrt_s_GeV": self.sqrt_s, "beam1_GeV": self.beams.p1.tolist(),
+                         "beam2_GeV": self.beams.p2.tolist(), "cm_beta_z": self.beta},
+            "parameters": {"model": dict(self.params),
+                           "masses_GeV": {p.name: m for p, m in zip(self.species, self.masses)},
+                           "widths_GeV": {p.name: cfg.widths.get(abs(p.pdg), p.width) for p in self.species}},
+        }
+
 
 class TwoToTwo(_FixedBeams):
     """A 2->2 process at fixed beam energies: one integration variable, the mapped cos(theta*)."""
@@ -297,8 +351,17 @@ class ManyBody(_FixedBeams):
         return p
 
 
-def build_process(cfg: RunConfig) -> "TwoToTwo | ManyBody":
-    """The integrand object for a validated card (raises CardError for impossible kinematics)."""
+def process_label(cfg: RunConfig) -> str:
+    return f"{' '.join(p.name for p in cfg.incoming)} -> {' '.join(p.name for p in cfg.outgoing)}"
+
+
+def build_process(cfg: RunConfig):
+    """The integrand object for a validated card (raises CardError for impossible kinematics):
+    a `TwoToTwo` or `ManyBody` at fixed beam energies, or a `gen.hadron.HadronCollision`."""
+    if cfg.incoming[0].is_hadron:
+        from .hadron import HadronCollision
+
+        return HadronCollision(cfg)
     if len(cfg.outgoing) > 2:
         return ManyBody(cfg)
     return TwoToTwo(cfg)

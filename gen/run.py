@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import contextlib
 import datetime as _dt
+import math
 import os
 from dataclasses import dataclass
 from pathlib import Path
@@ -22,7 +23,7 @@ from .card import RunConfig
 from .errors import OutputError
 from .events import JOB_STRIDE, EventLayout
 from .grid import ConsistencyWarning, Grid, make_grid, physics_digest, streams
-from .process import TwoToTwo, build_process
+from .process import build_process
 from .progress import Progress
 from .sampler import CrossSection, MapSampler, UnweightingStats
 from .store import EventWriter, read_run, schema_doc
@@ -61,50 +62,36 @@ def part_sizes(total: int, jobs: int) -> list[int]:
     return [base + (1 if i < extra else 0) for i in range(jobs)]
 
 
-def _layout(proc: TwoToTwo) -> EventLayout:
-    n = len(proc.species)
-    colour = np.zeros(n, np.int32)
-    anticolour = np.zeros(n, np.int32)
-    if proc.spec.colour is not None:
-        for canon_k, user_i in enumerate(proc.canonical):  # canonical particle k is the user's user_i
-            colour[user_i], anticolour[user_i] = proc.spec.colour.tags[canon_k]
-    return EventLayout(
-        pdg=np.array([p.pdg for p in proc.species], np.int32),
-        roles=["incoming", "incoming"] + ["outgoing"] * (n - 2),
-        parent_first=np.array([-1, -1] + [0] * (n - 2), np.int16),
-        parent_last=np.array([-1, -1] + [1] * (n - 2), np.int16),
-        colour=colour, anticolour=anticolour,
-        mass=np.array(proc.masses, np.float64),
-        subprocess=_label(proc.cfg), scale=proc.sqrt_s, alpha_em=float(proc.params.get("alpha", 0.0)),
-        alpha_s=proc.params.get("alpha_s"))
-
-
-def _label(cfg: RunConfig) -> str:
-    return f"{' '.join(p.name for p in cfg.incoming)} -> {' '.join(p.name for p in cfg.outgoing)}"
-
-
-def _record(proc: TwoToTwo, grid: Grid, job: int | None, jobs: int) -> dict:
+def _record(proc, grid: Grid, job: int | None, jobs: int) -> dict:
     cfg = proc.cfg
     xs = grid.cross_section
     return {
         "schema_version": schema_doc()["version"],
         "program": f"gen {__version__}",
         "card": {"path": cfg.source, "text": cfg.text, "digest": physics_digest(cfg), "sampling": dict(cfg.sampling)},
-        "process": {"model": cfg.model, "incoming": [p.name for p in cfg.incoming],
-                    "outgoing": [p.name for p in cfg.outgoing], "label": _label(cfg),
-                    "symmetry_factor": proc.spec.symmetry, "source": " ".join(proc.spec.source.split())},
-        "collider": {"sqrt_s_GeV": proc.sqrt_s, "beam1_GeV": proc.beams.p1.tolist(),
-                     "beam2_GeV": proc.beams.p2.tolist(), "cm_beta_z": proc.beta},
-        "parameters": {"model": dict(proc.params),
-                       "masses_GeV": {p.name: m for p, m in zip(proc.species, proc.masses)},
-                       "widths_GeV": {p.name: cfg.widths.get(abs(p.pdg), p.width) for p in proc.species}},
-        "cross_section": {"total": xs.as_dict(), "method": "vegas adaptation of the grid",
-                          "by_subprocess": {_label(cfg): {"value_pb": xs.value, "error_pb": xs.error}}},
+        **proc.record_sections(),
+        "cross_section": {"total": xs.as_dict(), "method": "vegas adaptation of the grid"},
         "grid": {"checksum": grid.checksum, "max_weight_pb": grid.max_weight},
         "seed": cfg.sampling["seed"],
         "job": {"index": 0 if job is None else job, "count": jobs},
         "integration": dict(cfg.integration),
     }
+
+
+def by_subprocess(labels: list[str], counts: np.ndarray, sums: np.ndarray, total: float, unweighted: bool) -> dict:
+    """sigma per subprocess (pb): the total times the share of events (unweighted, with its binomial
+    error) or the sum of the subprocess's weights (weighted)."""
+    n = counts.sum()
+    out = {}
+    for label, k, sw in zip(labels, counts, sums):
+        if k == 0:
+            continue
+        if unweighted:
+            share = k / n
+            out[label] = {"value_pb": total * share, "error_pb": total * math.sqrt(share * (1 - share) / n), "events": int(k)}
+        else:
+            out[label] = {"value_pb": float(sw), "events": int(k)}
+    return out
 
 
 def part_complete(folder: Path, cfg: RunConfig, grid: Grid, job: int, jobs: int) -> bool:
@@ -138,13 +125,24 @@ def _remove_stale_partials(folder: Path, names: list[str]) -> None:
                 pass
 
 
-def _stream(writer: EventWriter, layout: EventLayout, proc, rng, chunks, first_id: int, on_chunk) -> None:
-    """Write (points, weights) chunks as events with consecutive ids from first_id."""
+def _stream(writer: EventWriter, layout: EventLayout, proc, rng, chunks, first_id: int, on_chunk):
+    """Write (points, weights) chunks as events with consecutive ids from first_id; returns the
+    number of events and the sum of weights per subprocess."""
     serial = first_id
+    n_sub = len(layout.subprocesses)
+    counts, sums = np.zeros(n_sub, np.int64), np.zeros(n_sub)
     for x, w in chunks:
-        writer.write(layout.batch(serial, w, proc.momenta(x, rng)))
+        data = proc.events(x, rng)
+        writer.write(layout.batch(serial, w, data))
+        if data.subprocess is None:
+            counts[0] += w.size
+            sums[0] += w.sum()
+        else:
+            counts += np.bincount(data.subprocess, minlength=n_sub)
+            sums += np.bincount(data.subprocess, weights=w, minlength=n_sub)
         serial += x.shape[0]
         on_chunk(x.shape[0])
+    return counts, sums
 
 
 def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | None = None,
@@ -170,7 +168,7 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
     index = 0 if job is None else job
     rng_unw, rng_w = streams(samp["seed"], index)
     sampler = MapSampler(proc.weights, grid.adaptive_map(), proc.ndim, samp["chunk"])
-    layout = _layout(proc)
+    layout = proc.event_layout()
     base = _record(proc, grid, job, jobs)
     names = {kind: part_name(kind, job) for kind in ("unweighted", "weighted")}
     if out.is_dir():
@@ -188,10 +186,11 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
             progress.stage("unweight", n_unw)
             wr = stack.enter_context(EventWriter(out / names["unweighted"], rg))
             chunks = ((x, np.full(x.shape[0], weight)) for x in sampler.unweighted(rng_unw, n_unw, stats))
-            _stream(wr, layout, proc, rng_unw, chunks, index * JOB_STRIDE,
-                    lambda n: progress.update(stats.accepted, f"efficiency {stats.efficiency:.1%}"))
+            counts, sums = _stream(wr, layout, proc, rng_unw, chunks, index * JOB_STRIDE,
+                                   lambda n: progress.update(stats.accepted, f"efficiency {stats.efficiency:.1%}"))
             progress.end(f"efficiency {stats.efficiency:.1%}, {stats.overflow_events} above w_max")
-            wr.finish(dict(base, created=now(), weighting="unweighted",
+            xs_rec = dict(base["cross_section"], by_subprocess=by_subprocess(layout.subprocesses, counts, sums, xs.value, True))
+            wr.finish(dict(base, created=now(), weighting="unweighted", cross_section=xs_rec,
                            events={"count": wr.rows, "sum_weights_pb": wr.sum_w, "max_weight_pb": wr.max_w},
                            unweighting=stats.as_dict()))
             finished.append(wr)
@@ -204,9 +203,10 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
                 drawn[0] += samp["chunk"]
                 progress.update(min(drawn[0], n_w))
 
-            _stream(wr, layout, proc, rng_w, sampler.weighted(rng_w, n_w), index * JOB_STRIDE, step)
+            counts, sums = _stream(wr, layout, proc, rng_w, sampler.weighted(rng_w, n_w), index * JOB_STRIDE, step)
             progress.end(f"{wr.rows} events, sum of weights {wr.sum_w:.5e} pb")
-            wr.finish(dict(base, created=now(), weighting="weighted",
+            xs_rec = dict(base["cross_section"], by_subprocess=by_subprocess(layout.subprocesses, counts, sums, xs.value, False))
+            wr.finish(dict(base, created=now(), weighting="weighted", cross_section=xs_rec,
                            events={"count": wr.rows, "trials": n_w, "sum_weights_pb": wr.sum_w,
                                    "max_weight_pb": wr.max_w}))
             finished.append(wr)

@@ -25,7 +25,7 @@ __all__ = ["schema_doc", "arrow_schema", "EventWriter", "read_table", "read_mome
            "event_files", "schema_markdown"]
 
 _TYPES = {"int64": pa.int64(), "int32": pa.int32(), "int16": pa.int16(), "float64": pa.float64(),
-          "float32": pa.float32(), "category": pa.dictionary(pa.int8(), pa.string())}
+          "float32": pa.float32(), "category": pa.dictionary(pa.int16(), pa.string())}
 
 
 @lru_cache(maxsize=1)

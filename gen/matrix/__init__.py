@@ -3,11 +3,14 @@
 from __future__ import annotations
 
 import itertools
+from collections import defaultdict
+from dataclasses import dataclass
 
+from ..particles import HADRON_PARTONS, Species
 from . import electroweak, qcd, qed, scalar
 from .registry import ColourFlow, Model, Param, ProcessSpec
 
-__all__ = ["MODELS", "Model", "Param", "ProcessSpec", "ColourFlow", "find_process"]
+__all__ = ["MODELS", "Model", "Param", "ProcessSpec", "ColourFlow", "find_process", "Subprocess", "find_subprocesses"]
 
 MODELS: dict[str, Model] = {m.name: m for m in (scalar.MODEL, qed.MODEL, electroweak.MODEL, qcd.MODEL)}
 
@@ -26,3 +29,48 @@ def find_process(model: Model, incoming: tuple[str, str], outgoing: tuple[str, .
                 if tuple(outgoing[i] for i in op) == spec.outgoing:
                     return spec, ip, op
     return None
+
+
+@dataclass(frozen=True)
+class Subprocess:
+    """One parton-level process of a hadron collision: the partons taken from beams 1 and 2, the
+    particle in each outgoing slot of the card, and the spec with the permutations into its
+    canonical order (canonical incoming i = partons[in_perm[i]], canonical outgoing j = slot
+    out_perm[j])."""
+
+    spec: ProcessSpec
+    partons: tuple[str, str]
+    outgoing: tuple[str, ...]
+    in_perm: tuple[int, int]
+    out_perm: tuple[int, ...]
+
+    @property
+    def label(self) -> str:
+        return f"{' '.join(self.partons)} -> {' '.join(self.outgoing)}"
+
+
+def find_subprocesses(model: Model, beams: tuple[str, str], slots: tuple[Species, ...]) -> list[Subprocess]:
+    """Every parton process of the model that the beams' partons can start and whose final state
+    fills the card's outgoing slots (a slot holds one particle, or any member of a group).
+
+    Each distinct final state is listed once; slots of the same group are filled in one order, and
+    the event writer shuffles interchangeable slots, so nothing is counted twice.
+    """
+    allowed = [s.members or (s.name,) for s in slots]
+    by_in: dict[tuple[str, ...], list[ProcessSpec]] = defaultdict(list)
+    for spec in model.processes:
+        if len(spec.outgoing) == len(slots) and spec.matrix is not None:
+            by_in[tuple(sorted(spec.incoming))].append(spec)
+    out: list[Subprocess] = []
+    for a in HADRON_PARTONS[beams[0]]:
+        for b in HADRON_PARTONS[beams[1]]:
+            for spec in by_in.get(tuple(sorted((a, b))), []):
+                ip = (0, 1) if spec.incoming == (a, b) else (1, 0)
+                for op in itertools.permutations(range(len(slots))):
+                    if all(spec.outgoing[j] in allowed[op[j]] for j in range(len(slots))):
+                        filled = [""] * len(slots)
+                        for j, k in enumerate(op):
+                            filled[k] = spec.outgoing[j]
+                        out.append(Subprocess(spec, (a, b), tuple(filled), ip, tuple(op)))
+                        break
+    return out
