@@ -155,7 +155,10 @@ def make_grid(proc, cfg: RunConfig, progress: Progress | None = None) -> Grid:
         warnings.warn(f"the vegas iterations disagree (chi2/dof = {xs.chi2_dof:.2f}, Q = {xs.q:.3g} < "
                       f"integration.consistency_min_q = {integ['consistency_min_q']}); raise "
                       "integration.warmup_iterations or points_per_iteration", ConsistencyWarning, stacklevel=3)
-    nodes = tuple(tuple(float(v) for v in amap.grid[d]) for d in range(proc.ndim))
+    # each dimension has its own number of increments; the rows of amap.grid are padded past them
+    ninc = np.asarray(amap.ninc)
+    grid = np.asarray(amap.grid)
+    nodes = tuple(tuple(float(v) for v in grid[d, :ninc[d] + 1]) for d in range(proc.ndim))
     # calibrate on the map rebuilt from the stored nodes, exactly as every part will sample it
     sampler = MapSampler(proc.weights, vegas.AdaptiveMap([list(n) for n in nodes]), proc.ndim, cfg.sampling["chunk"])
     wmax = sampler.max_weight(rng_cal, cfg.sampling["calibration_points"])

@@ -188,6 +188,11 @@ class HadronCollision:
         if all_selected:
             shat_min = max(shat_min, cuts["mass_min"] ** 2)
             shat_max = min(shat_max, cuts["mass_max"] ** 2)
+        specs = [sub.spec for sub in self.subs]
+        needs = [s for s in specs if s.needs_angular_cut]
+        if needs and self.pt_min <= 0.0:
+            raise CardError(src, "cuts.pt_min", f"{needs[0].label} has poles where the outgoing particles go along the "
+                            "beams (massless exchange); give cuts.pt_min (for example 20 GeV)")
         res = {sub.spec.resonance for sub in self.subs}
         if shat_min <= 0.0 and None not in res:
             shat_min = 1.0  # a resonance alone: generated above 1 GeV of pair mass, where the densities begin
@@ -198,11 +203,6 @@ class HadronCollision:
             raise CardError(src, "cuts", f"the cuts leave no room: s-hat from {shat_min:g} to {shat_max:g} GeV^2 at "
                             f"sqrt(s) = {self.sqrt_s:g} GeV")
         self.shat_min, self.shat_max = shat_min, shat_max
-        specs = [sub.spec for sub in self.subs]
-        needs = [s for s in specs if s.needs_angular_cut]
-        if needs and self.pt_min <= 0.0:
-            raise CardError(src, "cuts.pt_min", f"{needs[0].label} has poles where the outgoing particles go along the "
-                            "beams (massless exchange); give cuts.pt_min (for example 20 GeV)")
         self.poles = "both" if any(s.poles != "none" for s in specs) else "none"
         self.pole_power = max((s.pole_power for s in specs if s.poles != "none"), default=2)
         # a Breit-Wigner map when every subprocess has the same s-channel resonance inside the range
