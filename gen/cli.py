@@ -217,8 +217,21 @@ def _cmd_info(args) -> int:
         xs = info["cross_section"]["total"]
         proc = info["process"]
         print(f"{info['path']}  ({info['weighting']}, schema {info['schema_version']}, {info['program']})")
-        print(f"  process     {proc['label']}  [{proc['model']}], symmetry factor {proc['symmetry_factor']:g}")
+        if "subprocesses" in proc:
+            print(f"  process     {proc['label']}  [{proc['model']}], {len(proc['subprocesses'])} subprocesses")
+        else:
+            print(f"  process     {proc['label']}  [{proc['model']}], symmetry factor {proc['symmetry_factor']:g}")
         print(f"  sqrt(s)     {info['collider']['sqrt_s_GeV']:.6g} GeV")
+        if "parton_densities" in info["collider"]:
+            col = info["collider"]
+            dens = col["parton_densities"]
+            scales = col["scales"]
+            print(f"  partons     {dens['set']} member {dens['member']}, alpha_s {col['alpha_s']}; scales "
+                  f"renormalization {scales['renormalization']}, factorization {scales['factorization']}"
+                  + (f", times {scales['factor']:g}" if scales["factor"] != 1 else ""))
+            top = sorted(info["cross_section"].get("by_subprocess", {}).items(), key=lambda kv: -kv[1]["value_pb"])[:5]
+            for label, v in top:
+                print(f"    {label:<24} {v['value_pb']:.5g} pb  ({v['events']} events)")
         print(f"  σ           {_fmt_sigma(xs['value_pb'], xs['error_pb'])}")
         ev = info["events"]
         print(f"  events      {ev['count']}, sum of weights {ev['sum_weights_pb']:.6g} pb, "

@@ -51,7 +51,10 @@ class HadronCollision:
         self.cfg = cfg
         src = cfg.source
         model = MODELS[cfg.model]
-        self.params = model.resolve(cfg.parameters)
+        if "alpha_s" in cfg.parameters:
+            raise CardError(src, "parameters.alpha_s", "alpha_s runs with the scale in hadron collisions; set "
+                            "partons.alpha_s (set, one_loop, two_loop) and partons.alpha_s_mz instead")
+        self.params = {k: v for k, v in model.resolve(cfg.parameters).items() if k != "alpha_s"}
         self.subs: list[Subprocess] = find_subprocesses(model, tuple(p.name for p in cfg.incoming), tuple(cfg.outgoing))
         assert self.subs, "the card checked that the process has subprocesses"
         self.n_out = len(cfg.outgoing)

@@ -28,7 +28,7 @@ def test_arrow_schema_is_built_from_the_schema_document():
     particle = schema.field("particles").type.value_type
     assert [f.name for f in particle] == [f["name"] for f in doc["particle_fields"]]
     assert schema.field("weight").metadata[b"unit"] == b"pb"
-    assert particle.field("role").type == pa.dictionary(pa.int8(), pa.string())
+    assert particle.field("role").type == pa.dictionary(pa.int16(), pa.string())
     assert schema.metadata[b"gen.schema_version"] == doc["version"].encode()
 
 

@@ -311,3 +311,26 @@ def test_hadron_card_errors_name_the_key(outgoing, extra, key):
 def test_groups_need_hadron_beams():
     with pytest.raises(CardError, match="needs hadron beams"):
         parse_card(card("qed", ["e-", "e+"], ["l-", "l+"], "sqrt_s = 10.0"), "bad.toml")
+
+
+def test_hadron_parts_merge_with_subprocess_counts(tmp_path):
+    """Three batch parts of a W card merge into one sample whose per-subprocess event counts add up
+    and whose sigma agrees with the single-run grid (book-keeping; common practice, no source)."""
+    from gen.batch import merge
+    from gen.grid import make_grid
+
+    cfg = parse_card(hadron_card("electroweak", ["l+", "nu"], "[cuts]\nmass_min = 60.0",
+                                 "events = 3000\nweighted_events = 0\nseed = 5"), "w.toml")
+    grid = make_grid(build_process(cfg), cfg)
+    for j in range(3):
+        run(cfg, tmp_path / "parts", grid=grid, job=j, jobs=3)
+    merge([tmp_path / "parts"], tmp_path / "merged")
+    rec = read_run(tmp_path / "merged" / "unweighted.parquet")
+    table = read_table(tmp_path / "merged" / "unweighted.parquet", columns=["subprocess"])
+    by = rec["cross_section"]["by_subprocess"]
+    assert sum(v["events"] for v in by.values()) == 3000 == table.num_rows
+    counts = {k: v for k, v in zip(*np.unique(table.column("subprocess").to_numpy(zero_copy_only=False), return_counts=True))}
+    assert {k: v["events"] for k, v in by.items()} == counts
+    assert sum(v["value_pb"] for v in by.values()) == pytest.approx(rec["cross_section"]["total"]["value_pb"], rel=1e-12)
+    assert within(rec["cross_section"]["total"]["value_pb"], rec["cross_section"]["total"]["error_pb"],
+                  grid.cross_section.value, k=5)
