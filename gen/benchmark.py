@@ -12,6 +12,10 @@ and prints:
 - the ratio of end-to-end time to the sum of the bare parts, peak memory and the unweighting
   efficiency.
 
+`--hadron N` instead runs dijets and Drell-Yan with the default parton-density set and prints
+events per second end to end, the share of the integrand's time spent in parton densities and the
+unweighting efficiency; `--pdf` measures density evaluations per second.
+
 Timings are medians over `--repeat` runs (these machines are noisy); nothing here is a test.
 """
 
@@ -160,6 +164,69 @@ def _pdf() -> None:
         print(f"{n:>9} points: {n / statistics.median(times):,.0f} points/s for one flavour")
 
 
+HADRON_CARD = """
+[process]
+model = "{model}"
+incoming = ["p", "p"]
+outgoing = {outgoing}
+[collider]
+sqrt_s = 13600.0
+{cuts}
+[sampling]
+events = {n}
+weighted_events = 0
+seed = 1
+"""
+
+HADRON_CARDS = {
+    "dijets (pt > 250 GeV, |eta| < 2.8)": ("qcd", '["jet", "jet"]', "[cuts]\npt_min = 250.0\neta_max = 2.8"),
+    "Drell-Yan e+e- (66-116 GeV)": ("electroweak", '["e-", "e+"]', "[cuts]\nmass_min = 66.0\nmass_max = 116.0"),
+}
+
+
+def _hadron(n: int, repeat: int) -> None:
+    """Hadron-collider runs with the default set: end-to-end events per second, the share of the
+    integrand's time spent in parton-density evaluation, the unweighting efficiency."""
+    import gen
+    from gen import pdf as gpdf
+    from gen.process import build_process
+
+    print(f"{'process':<36} {'events':>8} {'end-to-end':>11} {'events/s':>9} {'densities':>10} {'efficiency':>10}")
+    for label, (model, outgoing, cuts) in HADRON_CARDS.items():
+        text = HADRON_CARD.format(model=model, outgoing=outgoing, cuts=cuts, n=n)
+        cfg = gen.parse_card(text, "benchmark.toml")
+        times, eff = [], 0.0
+        with tempfile.TemporaryDirectory() as tmp:
+            for r in range(repeat):
+                t0 = time.perf_counter()
+                res = gen.run(cfg, folder=Path(tmp) / f"run{r}")
+                times.append(time.perf_counter() - t0)
+                eff = res.unweighting.efficiency
+        # share of the integrand's time in the densities: time both on the same points
+        import numpy as np
+
+        proc = build_process(cfg)
+        x = np.random.default_rng(2).random((200_000, proc.ndim))
+        spent = [0.0]
+        plain = gpdf.PdfSet.xfx_many
+
+        def timed(self, *a, **k):
+            t = time.perf_counter()
+            out = plain(self, *a, **k)
+            spent[0] += time.perf_counter() - t
+            return out
+
+        gpdf.PdfSet.xfx_many = timed
+        try:
+            t0 = time.perf_counter()
+            proc.weights(x)
+            total = time.perf_counter() - t0
+        finally:
+            gpdf.PdfSet.xfx_many = plain
+        med = statistics.median(times)
+        print(f"{label:<36} {n:>8} {med:>9.2f} s {n / med:>9.0f} {spent[0] / total:>10.0%} {eff:>10.1%}")
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", type=int, nargs="+", default=[1_000_000])
@@ -168,7 +235,11 @@ def main(argv=None) -> int:
     ap.add_argument("--dask", type=int, metavar="N", help="instead: N events on 1 and 2 local Dask workers")
     ap.add_argument("--parts", type=int, default=8, help="parts for --dask")
     ap.add_argument("--pdf", action="store_true", help="instead: parton-density evaluations per second")
+    ap.add_argument("--hadron", type=int, metavar="N", help="instead: N unweighted dijet and Drell-Yan events at 13.6 TeV")
     args = ap.parse_args(argv)
+    if args.hadron:
+        _hadron(args.hadron, args.repeat)
+        return 0
     if args.pdf:
         _pdf()
         return 0
