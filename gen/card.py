@@ -13,6 +13,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+from .decays import parse_decays
 from .errors import CardError, close_matches
 from .matrix import MODELS, find_process, find_subprocesses
 from .particles import HADRON_PARTONS, Species, lookup
@@ -116,6 +117,7 @@ class RunConfig:
     cuts: dict[str, Any]
     partons: dict[str, Any]
     scales: dict[str, Any]
+    decays: dict[str, Any]
     integration: dict[str, Any]
     sampling: dict[str, Any]
     output: dict[str, Any]
@@ -220,7 +222,7 @@ def parse_card(text: str, source: str = "<card>") -> RunConfig:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise CardError(source, "", f"not valid TOML: {exc}") from None
-    sections = list(SPEC) + ["parameters"]
+    sections = list(SPEC) + ["parameters", "decays"]
     for k in doc:
         if k not in sections:
             raise CardError(source, k, "unknown section" + close_matches(k, sections)
@@ -276,6 +278,7 @@ def parse_card(text: str, source: str = "<card>") -> RunConfig:
         source=source, text=text, model=model.name, incoming=incoming, outgoing=outgoing,
         collider=collider, parameters=params, masses=masses, widths=widths, cuts=cuts,
         partons=_section(source, doc, "partons"), scales=_scales(source, _section(source, doc, "scales")),
+        decays=parse_decays(source, doc.get("decays")),
         integration=_section(source, doc, "integration"), sampling=_section(source, doc, "sampling"),
         output=_section(source, doc, "output"))
 
@@ -336,6 +339,9 @@ def reference_markdown() -> str:
             lines.append(f"| `parameters.{k}` ({name}) | {'a string' if p.choices else 'a number'} | {default} | {rng} | {p.unit} | {p.doc} |")
     lines.append("| `parameters.masses.<particle>` | a number | PDG | 0 .. | GeV | mass of a particle and its antiparticle |")
     lines.append("| `parameters.widths.<particle>` | a number | PDG | 0 .. | GeV | width of a particle and its antiparticle |")
+    lines.append("| `decays.<particle>.into` | an array | | two particles | | the decay of a particle the process makes (or a decay product makes) |")
+    lines.append("| `decays.<particle>.branching_ratio` | a number | tree-level partial widths | 0 .. 1 | | its branching ratio |")
+    lines.append("| `decays.<particle>.window` | a number | 10 | 0 .. | widths | half-width of the Breit-Wigner mass window, in widths |")
     return "\n".join(lines) + "\n"
 
 

@@ -35,6 +35,7 @@ class EventData:
     alpha_s: np.ndarray | None = None
     x1: np.ndarray | None = None
     x2: np.ndarray | None = None
+    mass: np.ndarray | None = None  # (N, n): resonance masses drawn per event
 
 
 @dataclass
@@ -83,7 +84,7 @@ class EventLayout:
             per_particle(None, self.parent_first), per_particle(None, self.parent_last),
             per_particle(data.colour, self.colour), per_particle(data.anticolour, self.anticolour),
             pa.array(comp[0]), pa.array(comp[1]), pa.array(comp[2]), pa.array(comp[3]),
-            per_particle(None, self.mass), pa.nulls(m, pa.float32()),
+            per_particle(data.mass, self.mass), pa.nulls(m, pa.float32()),
         ]
         particles = pa.StructArray.from_arrays(fields, fields=list(self._particle_type))
         offsets = pa.array(np.arange(0, m + 1, n, dtype=np.int32))

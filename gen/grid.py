@@ -49,6 +49,7 @@ def physics_digest(cfg: RunConfig) -> str:
         "widths": {str(k): v for k, v in sorted(cfg.widths.items())},
         "cuts": cfg.cuts, "integration": cfg.integration, "seed": cfg.sampling["seed"],
         **({"partons": cfg.partons, "scales": cfg.scales} if cfg.incoming[0].is_hadron else {}),
+        **({"decays": {k: vars(d) for k, d in cfg.decays.items()}} if cfg.decays else {}),
         "calibration_points": cfg.sampling["calibration_points"],
     }
     return hashlib.sha256(json.dumps(doc, sort_keys=True).encode()).hexdigest()[:32]

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["massless_volume", "rambo", "MassMap", "sequential", "two_body_decay"]
+__all__ = ["massless_volume", "rambo", "MassMap", "sequential", "two_body_decay", "boost"]
 
 
 def massless_volume(n: int, sqrt_s: float) -> float:
@@ -117,16 +117,20 @@ def two_body_decay(parent: np.ndarray, m_parent: np.ndarray, m1, m2, cos_t, phi)
     e1 = np.sqrt(pstar**2 + m1 * m1)
     sn = np.sqrt(np.clip(1.0 - cos_t * cos_t, 0.0, None))
     d = np.stack([e1, pstar * sn * np.cos(phi), pstar * sn * np.sin(phi), pstar * cos_t], axis=-1)
-    # boost from the parent's rest frame (general direction)
-    beta = parent[:, 1:] / parent[:, :1]
+    out1 = boost(d, parent[:, 1:] / parent[:, :1])  # from the parent's rest frame
+    return out1, parent - out1, pstar
+
+
+def boost(p: np.ndarray, beta: np.ndarray) -> np.ndarray:
+    """Momenta p (N, 4) boosted by velocities beta (N, 3) (a frame moving with -beta sees p moving with it)."""
     b2 = (beta * beta).sum(axis=1)
     gamma = 1.0 / np.sqrt(1.0 - b2)
-    bp = (beta * d[:, 1:]).sum(axis=1)
+    bp = (beta * p[:, 1:]).sum(axis=1)
     g2 = np.where(b2 > 0, (gamma - 1.0) / np.where(b2 > 0, b2, 1.0), 0.0)
-    out1 = np.empty_like(d)
-    out1[:, 0] = gamma * (d[:, 0] + bp)
-    out1[:, 1:] = d[:, 1:] + (g2 * bp + gamma * d[:, 0])[:, None] * beta
-    return out1, parent - out1, pstar
+    out = np.empty_like(p)
+    out[:, 0] = gamma * (p[:, 0] + bp)
+    out[:, 1:] = p[:, 1:] + (g2 * bp + gamma * p[:, 0])[:, None] * beta
+    return out
 
 
 def sequential(x: np.ndarray, sqrt_s: float, masses, maps: list[MassMap] | None = None):

@@ -361,7 +361,13 @@ def build_process(cfg: RunConfig):
     if cfg.incoming[0].is_hadron:
         from .hadron import HadronCollision
 
-        return HadronCollision(cfg)
-    if len(cfg.outgoing) > 2:
-        return ManyBody(cfg)
-    return TwoToTwo(cfg)
+        proc = HadronCollision(cfg)
+    elif len(cfg.outgoing) > 2:
+        proc = ManyBody(cfg)
+    else:
+        proc = TwoToTwo(cfg)
+    if cfg.decays:
+        from .decays import WithDecays
+
+        return WithDecays(proc)
+    return proc

@@ -136,9 +136,9 @@ def validate(path: str | Path, out: str | Path | None = None, bins: int = 20,
     except CardError as exc:
         raise OutputError(f"{path}: the card stored in the file cannot be used: {exc}") from None
     if not hasattr(proc, "spec"):
-        raise UserError(f"{path}: gen validate covers processes at fixed beam energies; hadron-collider samples "
-                        "are checked by the test suite against integrals of the partonic cross-sections "
-                        "(tests/test_hadron.py)")
+        raise UserError(f"{path}: gen validate covers processes at fixed beam energies without decays; "
+                        "hadron-collider samples and decay chains are checked by the test suite (tests/test_hadron.py, "
+                        "tests/test_decays.py)")
     spec = proc.spec
     if spec.reference is None or spec.reference not in REFERENCES:
         raise UserError(f"{path}: no analytic reference for {spec.label} in the {spec.model} model; "
