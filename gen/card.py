@@ -41,7 +41,8 @@ _NUM = (int, float)
 SPEC: dict[str, dict[str, Key]] = {
     "process": {
         "model": Key(str, required=True, choices=tuple(MODELS), doc="model of the process library"),
-        "incoming": Key(list, required=True, doc="two incoming particles (names or PDG ids), or two hadrons (p, pbar); the first moves along +z"),
+        "incoming": Key(list, required=True, doc="two incoming particles (names or PDG ids), or two hadrons (p, pbar); the "
+                        "first moves along +z; or one particle, which decays at rest (no [collider]; the integral is its partial width)"),
         "outgoing": Key(list, required=True, doc="two or three outgoing particles (names or PDG ids); with hadron "
                         "beams one or two, and group names (jet, quark, antiquark, l-, l+, nu, nubar) stand for any of their members"),
     },
@@ -228,7 +229,8 @@ def parse_card(text: str, source: str = "<card>") -> RunConfig:
             raise CardError(source, k, "unknown section" + close_matches(k, sections)
                             + "; accepted sections: " + ", ".join(sections))
     proc = _section(source, doc, "process")
-    incoming = _particles(source, "process.incoming", proc["incoming"], 2)
+    at_rest = isinstance(proc["incoming"], list) and len(proc["incoming"]) == 1
+    incoming = _particles(source, "process.incoming", proc["incoming"], 1 if at_rest else 2)
     outgoing = _particles(source, "process.outgoing", proc["outgoing"], None)
     model = MODELS[proc["model"]]
     hadrons = [p.is_hadron for p in incoming]
@@ -254,7 +256,9 @@ def parse_card(text: str, source: str = "<card>") -> RunConfig:
                             f"it has: {listing}")
     collider = _section(source, doc, "collider")
     given = [k for k in SPEC["collider"] if k in collider]
-    if len(given) != 1:
+    if at_rest and given:
+        raise CardError(source, f"collider.{given[0]}", "one incoming particle decays at rest; leave out [collider]")
+    if len(given) != 1 and not at_rest:
         raise CardError(source, "collider", "give exactly one of sqrt_s, beam_energies, beam_energy; found "
                         + (", ".join(given) if given else "none"))
     if "beam_energies" in collider:

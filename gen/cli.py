@@ -18,9 +18,18 @@ from .errors import UserError
 __all__ = ["main"]
 
 
-def _fmt_sigma(value: float, error: float) -> str:
+def _fmt_sigma(value: float, error: float, unit: str = "pb") -> str:
     rel = f"{100 * error / value:.3g}%" if value else "n/a"
-    return f"{value:.6g} ± {error:.3g} pb  ({rel})"
+    return f"{value:.6g} ± {error:.3g} {unit}  ({rel})"
+
+
+def _measure_line(rec: dict, value: float, error: float) -> str:
+    """'σ ...' for a cross-section; 'Γ ...' with the lifetime for a particle decaying at rest."""
+    m = rec.get("measure", {"unit": "pb"})
+    if m["unit"] == "GeV":
+        life = f", lifetime {m['lifetime_s']:.6g} s" if "lifetime_s" in m else ""
+        return f"  Γ           {_fmt_sigma(value, error, 'GeV')}{life}"
+    return f"  σ           {_fmt_sigma(value, error)}"
 
 
 def _print_warnings(caught) -> None:
@@ -132,14 +141,15 @@ def _cmd_run(args) -> int:
 
 def _report_run(res) -> None:
     xs = res.cross_section
-    print(f"  sqrt(s)     {res.record['collider']['sqrt_s_GeV']:.6g} GeV")
-    print(f"  σ           {_fmt_sigma(xs.value, xs.error)}   chi2/dof {xs.chi2_dof:.2f}, Q {xs.q:.2f}")
+    col = res.record["collider"]
+    print(f"  {'at rest' if col.get('at_rest') else 'sqrt(s)':<11} {col['sqrt_s_GeV']:.6g} GeV")
+    print(f"{_measure_line(res.record, xs.value, xs.error)}   chi2/dof {xs.chi2_dof:.2f}, Q {xs.q:.2f}")
     st = res.unweighting
     if st is not None:
         est, err = st.estimate
         print(f"  unweighted  {st.accepted} events, efficiency {st.efficiency:.1%}, "
               f"{st.overflow_events} above w_max carrying {st.overflow_share:.2%} of σ "
-              f"(sampling pass: {est:.6g} ± {err:.2g} pb)")
+              f"(sampling pass: {est:.6g} ± {err:.2g} {res.record.get('measure', {}).get('unit', 'pb')})")
     for f in res.files:
         print(f"  wrote       {f}")
 
@@ -181,7 +191,8 @@ def _summarize(path: Path) -> dict:
             "cross_section": rec["cross_section"], "process": rec["process"], "collider": rec["collider"],
             "parameters": rec["parameters"], "unweighting": rec.get("unweighting"), "seed": rec["seed"],
             "job": rec["job"], "schema_version": rec["schema_version"], "program": rec["program"],
-            "created": rec["created"]}
+            "created": rec["created"], "measure": rec.get("measure", {"quantity": "cross-section", "unit": "pb"}),
+            **({"decays": rec["decays"]} if "decays" in rec else {})}
 
 
 def _cmd_info(args) -> int:
@@ -221,7 +232,11 @@ def _cmd_info(args) -> int:
             print(f"  process     {proc['label']}  [{proc['model']}], {len(proc['subprocesses'])} subprocesses")
         else:
             print(f"  process     {proc['label']}  [{proc['model']}], symmetry factor {proc['symmetry_factor']:g}")
-        print(f"  sqrt(s)     {info['collider']['sqrt_s_GeV']:.6g} GeV")
+        at_rest = info["collider"].get("at_rest")
+        print(f"  {'at rest' if at_rest else 'sqrt(s)':<11} {info['collider']['sqrt_s_GeV']:.6g} GeV")
+        for st in info.get("decays", {}).get("chain", []):
+            print(f"  decay       {st['particle']} -> {' '.join(st['into'])}, BR {st['branching_ratio']:.5g} "
+                  f"({st['branching_ratio_source']}), mass {st['mass_GeV']:.6g} ± {st['window_widths']:g} x {st['width_GeV']:.4g} GeV")
         if "parton_densities" in info["collider"]:
             col = info["collider"]
             dens = col["parton_densities"]
@@ -232,7 +247,7 @@ def _cmd_info(args) -> int:
             top = sorted(info["cross_section"].get("by_subprocess", {}).items(), key=lambda kv: -kv[1]["value_pb"])[:5]
             for label, v in top:
                 print(f"    {label:<24} {v['value_pb']:.5g} pb  ({v['events']} events)")
-        print(f"  σ           {_fmt_sigma(xs['value_pb'], xs['error_pb'])}")
+        print(_measure_line(info, xs["value_pb"], xs["error_pb"]))
         ev = info["events"]
         print(f"  events      {ev['count']}, sum of weights {ev['sum_weights_pb']:.6g} pb, "
               f"largest weight {ev['max_weight_pb']:.4g} pb")

@@ -122,6 +122,14 @@ def cut_mask(cuts: dict, out: np.ndarray, selected: list[int]) -> np.ndarray:
     return ok
 
 
+def resolved_mass(cfg: RunConfig, sp: Species, model_masses: dict[str, float]) -> float:
+    """A particle's mass: set by the model's parameters, else by the card, else PDG."""
+    for name, m in model_masses.items():
+        if abs(species(name).pdg) == abs(sp.pdg):
+            return float(m)
+    return float(cfg.masses.get(abs(sp.pdg), sp.mass))
+
+
 class _FixedBeams:
     """What every process at fixed beam energies shares: the spec in canonical order, resolved
     parameters and masses, the beams, the threshold, the flux and the cuts."""
@@ -162,10 +170,7 @@ class _FixedBeams:
         self.has_cuts = has_cuts(cfg.cuts)
 
     def _mass(self, sp: Species, model_masses: dict[str, float]) -> float:
-        for name, m in model_masses.items():
-            if abs(species(name).pdg) == abs(sp.pdg):
-                return float(m)
-        return float(self.cfg.masses.get(abs(sp.pdg), sp.mass))
+        return resolved_mass(self.cfg, sp, model_masses)
 
     def cut_mask(self, out):
         """True for events whose outgoing particles (N, n, 4) pass the card's cuts."""
@@ -351,6 +356,78 @@ class ManyBody(_FixedBeams):
         return p
 
 
+class DecayAtRest:
+    """One particle decaying at rest into two or three: the integral over [0, 1]^(3n - 4) is its
+    partial width Gamma = (1/2m) int |M|^2 dPhi_n in GeV (sequential phase space; the orientation is
+    part of x). The file's weights and its `*_pb` fields then hold GeV; the record's `measure` says so."""
+
+    measure = {"quantity": "partial width", "unit": "GeV"}
+
+    def __init__(self, cfg: RunConfig):
+        self.cfg = cfg
+        model = MODELS[cfg.model]
+        found = find_process(model, (cfg.incoming[0].name,), tuple(p.name for p in cfg.outgoing))
+        assert found is not None  # the card checked it
+        self.spec, _, self.out_perm = found
+        self.params = model.resolve(cfg.parameters)
+        model_masses = model.masses(self.params)
+        self.species = tuple(cfg.incoming) + tuple(cfg.outgoing)
+        self.masses = tuple(resolved_mass(cfg, sp, model_masses) for sp in self.species)
+        self.m = self.masses[0]
+        self.sqrt_s = self.m
+        if self.m <= sum(self.masses[1:]):
+            raise CardError(cfg.source, "process.outgoing", f"{' '.join(p.name for p in cfg.outgoing)} is heavier than "
+                            f"{cfg.incoming[0].name} ({self.m:g} GeV)")
+        self.n_out = len(cfg.outgoing)
+        self.ndim = 3 * self.n_out - 4
+        self.canonical = [0] + [1 + i for i in self.out_perm]
+        self.me_params = dict(self.params, **{f"m{k + 1}": self.masses[i] for k, i in enumerate(self.canonical)})
+        self.selected = [i for i, sp in enumerate(cfg.outgoing)
+                         if "particles" not in cfg.cuts or sp.name in cfg.cuts["particles"]]
+        self.has_cuts = has_cuts(cfg.cuts)
+        self.p_parent = np.array([self.m, 0.0, 0.0, 0.0])
+
+    def _momenta(self, x):
+        out, w_ps = sequential(x, self.m, self.masses[1:])
+        p = np.empty((x.shape[0], 1 + self.n_out, 4))
+        p[:, 0] = self.p_parent
+        p[:, 1:] = out
+        return p, w_ps
+
+    def weights(self, x):
+        p, w_ps = self._momenta(x)
+        me = self.spec.momentum_matrix(p[:, self.canonical], self.me_params)
+        w = self.spec.symmetry * me * w_ps / (2.0 * self.m)
+        if self.has_cuts:
+            w = np.where(cut_mask(self.cfg.cuts, p[:, 1:], self.selected), w, 0.0)
+        return w
+
+    def momenta(self, x, rng):
+        return self._momenta(x)[0]
+
+    def events(self, x, rng) -> EventData:
+        return EventData(self.momenta(x, rng))
+
+    def event_layout(self) -> EventLayout:
+        n = len(self.species)
+        return EventLayout(
+            pdg=np.array([p.pdg for p in self.species], np.int32), roles=["incoming"] + ["outgoing"] * (n - 1),
+            parent_first=np.array([-1] + [0] * (n - 1), np.int16), parent_last=np.array([-1] + [0] * (n - 1), np.int16),
+            colour=np.zeros(n, np.int32), anticolour=np.zeros(n, np.int32), mass=np.array(self.masses, np.float64),
+            subprocesses=[process_label(self.cfg)], scale=self.m, alpha_em=float(self.params.get("alpha", 0.0)))
+
+    def record_sections(self) -> dict:
+        cfg = self.cfg
+        return {
+            "process": {"model": cfg.model, "incoming": [p.name for p in cfg.incoming],
+                        "outgoing": [p.name for p in cfg.outgoing], "label": process_label(cfg),
+                        "symmetry_factor": self.spec.symmetry, "source": " ".join(self.spec.source.split())},
+            "collider": {"at_rest": True, "sqrt_s_GeV": self.m, "beam1_GeV": self.p_parent.tolist(), "cm_beta_z": 0.0},
+            "parameters": {"model": dict(self.params),
+                           "masses_GeV": {p.name: m for p, m in zip(self.species, self.masses)}},
+        }
+
+
 def process_label(cfg: RunConfig) -> str:
     return f"{' '.join(p.name for p in cfg.incoming)} -> {' '.join(p.name for p in cfg.outgoing)}"
 
@@ -362,6 +439,8 @@ def build_process(cfg: RunConfig):
         from .hadron import HadronCollision
 
         proc = HadronCollision(cfg)
+    elif len(cfg.incoming) == 1:
+        proc = DecayAtRest(cfg)
     elif len(cfg.outgoing) > 2:
         proc = ManyBody(cfg)
     else:

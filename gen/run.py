@@ -17,6 +17,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
+from scipy import constants as _sc
 
 from . import __version__
 from .card import RunConfig
@@ -70,12 +71,27 @@ def _record(proc, grid: Grid, job: int | None, jobs: int) -> dict:
         "program": f"gen {__version__}",
         "card": {"path": cfg.source, "text": cfg.text, "digest": physics_digest(cfg), "sampling": dict(cfg.sampling)},
         **proc.record_sections(),
+        "measure": _measure(proc, xs),
         "cross_section": {"total": xs.as_dict(), "method": "vegas adaptation of the grid"},
         "grid": {"checksum": grid.checksum, "max_weight_pb": grid.max_weight},
         "seed": cfg.sampling["seed"],
         "job": {"index": 0 if job is None else job, "count": jobs},
         "integration": dict(cfg.integration),
     }
+
+
+#: hbar in GeV s (CODATA, via scipy.constants)
+_HBAR_GEV_S = _sc.hbar / _sc.e / 1e9
+
+
+def _measure(proc, xs: CrossSection) -> dict:
+    """What the integral is: a cross-section in pb, or for a particle decaying at rest its partial
+    width in GeV (then with the lifetime hbar / Gamma it implies)."""
+    m = dict(getattr(proc, "measure", {"quantity": "cross-section", "unit": "pb"}))
+    if m["unit"] == "GeV" and xs.value > 0:
+        m["lifetime_s"] = _HBAR_GEV_S / xs.value
+        m["lifetime_error_s"] = m["lifetime_s"] * xs.error / xs.value
+    return m
 
 
 def by_subprocess(labels: list[str], counts: np.ndarray, sums: np.ndarray, total: float, unweighted: bool) -> dict:

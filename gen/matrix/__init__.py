@@ -22,7 +22,7 @@ def find_process(model: Model, incoming: tuple[str, str], outgoing: tuple[str, .
     None when the model has no such process.
     """
     for spec in model.processes:
-        for ip in ((0, 1), (1, 0)):
+        for ip in itertools.permutations(range(len(incoming))):
             if tuple(incoming[i] for i in ip) != spec.incoming:
                 continue
             for op in itertools.permutations(range(len(outgoing))):

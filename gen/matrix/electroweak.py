@@ -134,6 +134,20 @@ def higgs_strahlung(s, t, u, par):
     return 0.25 * gz2 * gz2 * mz2 * (ve * ve + ae * ae) * bracket / den
 
 
+def _mdot(a, b):
+    return a[..., 0] * b[..., 0] - a[..., 1] * b[..., 1] - a[..., 2] * b[..., 2] - a[..., 3] * b[..., 3]
+
+
+def muon_decay(p, par):
+    """mu-(p1) -> e-(p2) nubar_e(p3) nu_mu(p4) in the four-fermion (V - A) limit, m_W -> infinity:
+    (1/2) sum |M|^2 = 64 G_F^2 (p1.p3)(p2.p4) (Griffiths, Introduction to Elementary Particles,
+    2nd ed. (2008), sec. 10.3; from memory). Integrated it gives Gamma = G_F^2 m^5/(192 pi^3) f(m_e^2/m^2)
+    and the Michel electron spectrum x^2 (3 - 2x) for m_e -> 0. The same form holds for
+    mu+ -> e+ nu_e nubar_mu with the particles conjugated."""
+    gf = par.get("g_fermi", G_FERMI)
+    return 64.0 * gf * gf * _mdot(p[:, 0], p[:, 2]) * _mdot(p[:, 1], p[:, 3])
+
+
 def _resolve(over):
     scheme = str(over.get("scheme", "fermi"))
     mz = float(over.get("m_Z", species("Z").mass))
@@ -185,6 +199,8 @@ for _up, _down in (("u", "d"), ("u", "s"), ("c", "d"), ("c", "s")):
                                  make_w_decay.__doc__, flows=(_ANNIHILATION_FLOW,), resonance=("m_W", "width_W")))
         _PROC.append(ProcessSpec("electroweak", (_down, _up + "bar"), (_l, _nu + "bar"), make_w_decay(False, _up + _down),
                                  make_w_decay.__doc__, flows=(_ANNIHILATION_FLOW,), resonance=("m_W", "width_W")))
+for _mu, _decay in (("mu-", ("e-", "nu_ebar", "nu_mu")), ("mu+", ("e+", "nu_e", "nu_mubar"))):
+    _PROC.append(ProcessSpec("electroweak", (_mu,), _decay, None, muon_decay.__doc__, momentum_matrix=muon_decay))
 _PROC.append(ProcessSpec("electroweak", ("g", "g"), ("H",), gluon_fusion_higgs, gluon_fusion_higgs.__doc__,
                          flows=(chain_flow(3, [("loop", 0, 1)]),), strong_order=2, resonance=("m_H", "width_H")))
 
