@@ -180,35 +180,13 @@ class _FixedBeams:
         return EventData(self.momenta(x, rng))
 
     def event_layout(self) -> EventLayout:
-        n = len(self.species)
-        colour = np.zeros(n, np.int32)
-        anticolour = np.zeros(n, np.int32)
-        if self.spec.colour is not None:
-            for canon_k, user_i in enumerate(self.canonical):  # canonical particle k is the user's user_i
-                colour[user_i], anticolour[user_i] = self.spec.colour.tags[canon_k]
-        return EventLayout(
-            pdg=np.array([p.pdg for p in self.species], np.int32),
-            roles=["incoming", "incoming"] + ["outgoing"] * (n - 2),
-            parent_first=np.array([-1, -1] + [0] * (n - 2), np.int16),
-            parent_last=np.array([-1, -1] + [1] * (n - 2), np.int16),
-            colour=colour, anticolour=anticolour,
-            mass=np.array(self.masses, np.float64),
-            subprocesses=[process_label(self.cfg)], scale=self.sqrt_s, alpha_em=float(self.params.get("alpha", 0.0)),
-            alpha_s=self.params.get("alpha_s"))
+        return single_process_layout(self, 2)
 
     def record_sections(self) -> dict:
         """The process, collider and parameter sections of the file metadata."""
-        cfg = self.cfg
-        return {
-            "process": {"model": cfg.model, "incoming": [p.name for p in cfg.incoming],
-                        "outgoing": [p.name for p in cfg.outgoing], "label": process_label(cfg),
-                        "symmetry_factor": self.spec.symmetry, "source": " ".join(self.spec.source.split())},
-            "collider": {"sqrt_s_GeV": self.sqrt_s, "beam1_GeV": self.beams.p1.tolist(),
-                         "beam2_GeV": self.beams.p2.tolist(), "cm_beta_z": self.beta},
-            "parameters": {"model": dict(self.params),
-                           "masses_GeV": {p.name: m for p, m in zip(self.species, self.masses)},
-                           "widths_GeV": {p.name: cfg.widths.get(abs(p.pdg), p.width) for p in self.species}},
-        }
+        return {"process": process_section(self), "parameters": parameter_section(self),
+                "collider": {"sqrt_s_GeV": self.sqrt_s, "beam1_GeV": self.beams.p1.tolist(),
+                             "beam2_GeV": self.beams.p2.tolist(), "cm_beta_z": self.beta}}
 
 
 class TwoToTwo(_FixedBeams):
@@ -409,23 +387,42 @@ class DecayAtRest:
         return EventData(self.momenta(x, rng))
 
     def event_layout(self) -> EventLayout:
-        n = len(self.species)
-        return EventLayout(
-            pdg=np.array([p.pdg for p in self.species], np.int32), roles=["incoming"] + ["outgoing"] * (n - 1),
-            parent_first=np.array([-1] + [0] * (n - 1), np.int16), parent_last=np.array([-1] + [0] * (n - 1), np.int16),
-            colour=np.zeros(n, np.int32), anticolour=np.zeros(n, np.int32), mass=np.array(self.masses, np.float64),
-            subprocesses=[process_label(self.cfg)], scale=self.m, alpha_em=float(self.params.get("alpha", 0.0)))
+        return single_process_layout(self, 1)
 
     def record_sections(self) -> dict:
-        cfg = self.cfg
-        return {
-            "process": {"model": cfg.model, "incoming": [p.name for p in cfg.incoming],
-                        "outgoing": [p.name for p in cfg.outgoing], "label": process_label(cfg),
-                        "symmetry_factor": self.spec.symmetry, "source": " ".join(self.spec.source.split())},
-            "collider": {"at_rest": True, "sqrt_s_GeV": self.m, "beam1_GeV": self.p_parent.tolist(), "cm_beta_z": 0.0},
-            "parameters": {"model": dict(self.params),
-                           "masses_GeV": {p.name: m for p, m in zip(self.species, self.masses)}},
-        }
+        return {"process": process_section(self), "parameters": parameter_section(self),
+                "collider": {"at_rest": True, "sqrt_s_GeV": self.m, "beam1_GeV": self.p_parent.tolist(), "cm_beta_z": 0.0}}
+
+
+def single_process_layout(proc, n_in: int) -> EventLayout:
+    """The layout of a run of one process: its particles in card order, outgoing ones children of
+    the incoming, the spec's single colour flow (canonical particle k is the card's proc.canonical[k])."""
+    n = len(proc.species)
+    colour = np.zeros(n, np.int32)
+    anticolour = np.zeros(n, np.int32)
+    if proc.spec.colour is not None:
+        for canon_k, user_i in enumerate(proc.canonical):
+            colour[user_i], anticolour[user_i] = proc.spec.colour.tags[canon_k]
+    return EventLayout(
+        pdg=np.array([p.pdg for p in proc.species], np.int32),
+        roles=["incoming"] * n_in + ["outgoing"] * (n - n_in),
+        parent_first=np.array([-1] * n_in + [0] * (n - n_in), np.int16),
+        parent_last=np.array([-1] * n_in + [n_in - 1] * (n - n_in), np.int16),
+        colour=colour, anticolour=anticolour, mass=np.array(proc.masses, np.float64),
+        subprocesses=[process_label(proc.cfg)], scale=proc.sqrt_s, alpha_em=float(proc.params.get("alpha", 0.0)),
+        alpha_s=proc.params.get("alpha_s"))
+
+
+def process_section(proc) -> dict:
+    cfg = proc.cfg
+    return {"model": cfg.model, "incoming": [p.name for p in cfg.incoming], "outgoing": [p.name for p in cfg.outgoing],
+            "label": process_label(cfg), "symmetry_factor": proc.spec.symmetry,
+            "source": " ".join(proc.spec.source.split())}
+
+
+def parameter_section(proc) -> dict:
+    return {"model": dict(proc.params), "masses_GeV": {p.name: m for p, m in zip(proc.species, proc.masses)},
+            "widths_GeV": {p.name: proc.cfg.widths.get(abs(p.pdg), p.width) for p in proc.species}}
 
 
 def process_label(cfg: RunConfig) -> str:
