@@ -34,6 +34,7 @@ from .errors import CardError, UserError
 from .events import EventData, EventLayout
 from .kinematics import AngularMap, boost_z, momentum_2body
 from .matrix import MODELS, Subprocess, find_subprocesses
+from .matrix.registry import choose_flows
 from .particles import HADRON_PARTONS, species
 from .process import cut_mask, has_cuts, process_label
 
@@ -391,13 +392,9 @@ class HadronCollision:
             sel = np.flatnonzero(groups == g)
             if not flows:
                 continue
-            choice = np.zeros(sel.size, np.int64)
-            if len(flows) > 1:
-                s, t, u = self._canonical(owner, d["shat"][sel], d["t"][sel], d["u"][sel])
-                par = dict(self.params, alpha_s=d["alpha_s"][sel], m3=self.m_out[0], m4=self.m_out[-1])
-                fw = np.stack([fl.weight(s, t, u, par) for fl in flows])
-                fc = np.cumsum(fw, axis=0)
-                choice = np.minimum((fc < (pick[sel] * fc[-1])[None, :]).sum(axis=0), len(flows) - 1)
+            s, t, u = self._canonical(owner, d["shat"][sel], d["t"][sel], d["u"][sel])
+            par = dict(self.params, alpha_s=d["alpha_s"][sel], m3=self.m_out[0], m4=self.m_out[-1])
+            choice = choose_flows(flows, s, t, u, par, pick[sel])
             colour[sel] = tags[choice, :, 0]
             anticolour[sel] = tags[choice, :, 1]
         if self.shuffle:

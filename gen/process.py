@@ -19,6 +19,7 @@ from .errors import CardError
 from .events import EventData, EventLayout
 from .kinematics import AngularMap, boost_z, kallen, momentum_2body, two_body
 from .matrix import MODELS, ProcessSpec, find_process
+from .matrix.registry import choose_flows
 from .particles import Species, species
 from .phasespace import sequential
 
@@ -274,6 +275,21 @@ class TwoToTwo(_FixedBeams):
             w = np.where(self.cut_mask(self._lab_outgoing(c, np.zeros_like(c))), w, 0.0)
         return w
 
+    def events(self, x, rng: np.random.Generator) -> EventData:
+        """Momenta, and for a process with several colour flows each event's flow, chosen in
+        proportion to the leading-colour weights at its point."""
+        flows = self.spec.flows
+        if len(flows) < 2:
+            return EventData(self.momenta(x, rng))
+        p = self.momenta(x, rng)
+        s, t, u = self._mandelstam(self.map(x[:, 0])[0])
+        choice = choose_flows(flows, s, t, u, self.me_params, rng.random(x.shape[0]))
+        tags = np.zeros((len(flows), 4, 2), np.int32)
+        for f, flow in enumerate(flows):
+            for k, user in enumerate(self.canonical):
+                tags[f, user] = flow.tags[k]
+        return EventData(p, colour=tags[choice, :, 0], anticolour=tags[choice, :, 1])
+
     def momenta(self, x, rng: np.random.Generator):
         """Laboratory momenta (N, 4, 4) for points x: incoming then outgoing, in the user's order."""
         n = x.shape[0]
@@ -400,9 +416,10 @@ def single_process_layout(proc, n_in: int) -> EventLayout:
     n = len(proc.species)
     colour = np.zeros(n, np.int32)
     anticolour = np.zeros(n, np.int32)
-    if proc.spec.colour is not None:
+    flows = proc.spec.colour_flows
+    if flows:  # several flows: the first is the default, events() chooses per event
         for canon_k, user_i in enumerate(proc.canonical):
-            colour[user_i], anticolour[user_i] = proc.spec.colour.tags[canon_k]
+            colour[user_i], anticolour[user_i] = flows[0].tags[canon_k]
     return EventLayout(
         pdg=np.array([p.pdg for p in proc.species], np.int32),
         roles=["incoming"] * n_in + ["outgoing"] * (n - n_in),

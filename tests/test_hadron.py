@@ -431,3 +431,23 @@ def test_prompt_photon_cross_section_against_an_independent_sum():
     proc, xs = integrate(hadron_card("qcd", ["gamma", "jet"], "[cuts]\npt_min = 60.0\neta_max = 2.4\ndelta_r_min = 0.4"))
     ref, err = _dijet_reference(60.0, 2.4, states=_photon_states, alpha=proc.params["alpha"])
     assert abs(xs.value - ref) <= 5 * math.hypot(xs.error, err), (xs.value, xs.error, ref, err)
+
+
+def test_parton_beams_at_fixed_energy_choose_colour_flows(tmp_path):
+    """A parton process run at fixed beam energies (u g -> u g at 100 GeV, 20-160 degrees) also
+    draws its colour flow per event: colour is conserved, and both flows of the channel occur
+    (common practice, no source)."""
+    text = card("qcd", ["u", "g"], ["u", "g"], "sqrt_s = 100.0", "[cuts]\ntheta_min_deg = 20\ntheta_max_deg = 160",
+                "events = 3000\nweighted_events = 0")
+    run(parse_card(text, "ug.toml"), tmp_path)
+    parts = read_table(tmp_path / "unweighted.parquet").column("particles").combine_chunks().flatten()
+    col = parts.field("colour").to_numpy().reshape(-1, 4)
+    anti = parts.field("anticolour").to_numpy().reshape(-1, 4)
+    assert _colour_conserved(col, anti)
+    assert len({tuple(c) + tuple(a) for c, a in zip(col, anti)}) == 2
+
+
+def test_alpha_s_of_a_hadron_card_is_set_under_partons():
+    with pytest.raises(CardError, match="partons.alpha_s"):
+        build_process(parse_card(hadron_card("qcd", ["jet", "jet"], "[parameters]\nalpha_s = 0.1\n[cuts]\npt_min = 50.0"),
+                                 "bad.toml"))

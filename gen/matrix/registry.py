@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Param", "ProcessSpec", "Model", "ColourFlow", "chain_flow"]
+__all__ = ["Param", "ProcessSpec", "Model", "ColourFlow", "chain_flow", "choose_flows"]
 
 #: |M|^2(s, t, u, params) -> array; s, t, u are float64 arrays of equal shape (GeV^2).
 MatrixElement = Callable[[np.ndarray, np.ndarray, np.ndarray, Mapping[str, float]], np.ndarray]
@@ -75,6 +75,15 @@ def chain_flow(n: int, chains, weight=None, n_in: int = 2) -> ColourFlow:
             anti[idx[0]] = tag
     tags = tuple((anti[i], col[i]) if i < n_in else (col[i], anti[i]) for i in range(n))
     return ColourFlow(tags, weight)
+
+
+def choose_flows(flows, s, t, u, par, r) -> np.ndarray:
+    """Index of the flow chosen at each point, with probability proportional to the flows'
+    leading-colour weights at (s, t, u) (canonical order); r holds one uniform number per point."""
+    if len(flows) < 2:
+        return np.zeros(np.shape(s), np.int64)
+    cum = np.cumsum(np.stack([fl.weight(s, t, u, par) for fl in flows]), axis=0)
+    return np.minimum((cum < (r * cum[-1])[None, :]).sum(axis=0), len(flows) - 1)
 
 
 @dataclass(frozen=True)
