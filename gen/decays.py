@@ -103,11 +103,10 @@ class DecayChain:
         self.n_production = len(names)
         self.names = list(names)
         self.masses = list(masses)
-        self.roles_changed: list[int] = []
         self.steps: list[_Step] = []
         decays = cfg.decays
         used = set()
-        queue = [i for i in range(2, len(names))]
+        queue = list(range(len(cfg.incoming), len(names)))  # the outgoing particles of the production
         while queue:
             i = queue.pop(0)
             d = decays.get(self.names[i])
@@ -129,7 +128,7 @@ class DecayChain:
         for name in decays:
             if name not in used:
                 raise CardError(src, f"decays.{name}", f"the process makes no {name}; particles: "
-                                + ", ".join(self.names[2:self.n_production]))
+                                + ", ".join(self.names[len(cfg.incoming):self.n_production]))
         self.branching_ratio = math.prod(s.branching_ratio for s in self.steps)
 
     def _mass_width(self, name: str, ew: dict, index: int | None) -> tuple[float, float]:

@@ -36,7 +36,7 @@ from .kinematics import AngularMap, boost_z, momentum_2body
 from .matrix import MODELS, Subprocess, find_subprocesses
 from .matrix.registry import choose_flows
 from .particles import HADRON_PARTONS, species
-from .process import cut_mask, has_cuts, process_label
+from .process import cut_mask, has_cuts, process_label, resolved_mass
 
 __all__ = ["HadronCollision"]
 
@@ -97,13 +97,7 @@ class HadronCollision:
     # --- set-up ------------------------------------------------------------------------------
     def _slot_masses(self, model_masses) -> tuple[float, ...]:
         def mass(name):
-            if name not in _MASSIVE:
-                return 0.0
-            sp = species(name)
-            for n, m in model_masses.items():
-                if abs(species(n).pdg) == abs(sp.pdg):
-                    return float(m)
-            return float(self.cfg.masses.get(abs(sp.pdg), sp.mass))
+            return resolved_mass(self.cfg, species(name), model_masses) if name in _MASSIVE else 0.0
 
         per_slot = []
         for k, slot in enumerate(self.cfg.outgoing):
@@ -124,7 +118,7 @@ class HadronCollision:
         self.pids1 = [sign[b1] * species(n).pdg if species(n).is_quark else 21 for n in names]
         self.pids2 = [sign[b2] * species(n).pdg if species(n).is_quark else 21 for n in names]
         keys: dict[tuple, int] = {}
-        self.evals: list[tuple] = []  # (spec, flipped) per distinct |M|^2 evaluation
+        self.evals: list[tuple] = []  # (spec, t <-> u flipped, out_perm) per distinct |M|^2 evaluation
         self.sub_key = np.empty(len(self.subs), np.int64)
         self.sub_a = np.empty(len(self.subs), np.int64)
         self.sub_b = np.empty(len(self.subs), np.int64)
