@@ -234,13 +234,15 @@ def parse_card(text: str, source: str = "<card>") -> RunConfig:
     outgoing = _particles(source, "process.outgoing", proc["outgoing"], None)
     model = MODELS[proc["model"]]
     hadrons = [p.is_hadron for p in incoming]
+    if at_rest and any(hadrons):
+        raise CardError(source, "process.incoming", "a hadron does not decay in gen; give two hadron beams")
     if any(hadrons) and not all(hadrons):
         raise CardError(source, "process.incoming", "give two hadrons (p, pbar) or two particles; lepton-hadron "
                         "collisions are not supported")
     if all(hadrons):
         _check_hadron_process(source, model, incoming, outgoing, doc)
     else:
-        for i, p in enumerate(incoming + outgoing):
+        for p in incoming + outgoing:
             if p.is_group:
                 raise CardError(source, "process.outgoing", f"the group {p.name!r} needs hadron beams; name the particles")
         for sec in ("partons", "scales"):
