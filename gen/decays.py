@@ -223,11 +223,16 @@ class DecayChain:
                          data.alpha_s, data.x1, data.x2, mass)
 
     def _remass_production(self, p: np.ndarray, mass: np.ndarray, n0: int) -> None:
-        """Rebuild a two-particle production final state with the drawn masses at the same angles in
-        its rest frame; where the masses do not fit the event's energy, keep the nominal ones."""
-        if n0 != 4 or not any(st.parent in (2, 3) for st in self.steps):
-            if n0 == 3:  # a 2 -> 1 resonance stays at the mass the production gave it
-                mass[:, 2] = np.sqrt(np.clip(p[:, 2, 0] ** 2 - (p[:, 2, 1:] ** 2).sum(1), 0.0, None))
+        """Rebuild a 2 -> 2 production final state with the drawn masses at the same angles in its
+        rest frame; where the masses do not fit the event's energy, keep the nominal ones. Other
+        productions (2 -> 1, decays at rest, three outgoing) keep their resonances at the mass the
+        production gave them."""
+        decayed = [st.parent for st in self.steps if st.parent < n0]
+        if not decayed:
+            return
+        if len(self.cfg.incoming) != 2 or n0 != 4:
+            for i in decayed:
+                mass[:, i] = np.sqrt(np.clip(p[:, i, 0] ** 2 - (p[:, i, 1:] ** 2).sum(1), 0.0, None))
             return
         total = p[:, 2] + p[:, 3]
         m_tot = np.sqrt(np.clip(total[:, 0] ** 2 - (total[:, 1:] ** 2).sum(1), 0.0, None))
@@ -236,9 +241,8 @@ class DecayChain:
         r = np.linalg.norm(rest[:, 1:], axis=1)
         cos_t = np.clip(rest[:, 3] / np.where(r > 0, r, 1.0), -1.0, 1.0)
         phi = np.arctan2(rest[:, 2], rest[:, 1])
-        nominal = np.array(self.masses[2:4])
         fits = mass[:, 2] + mass[:, 3] < m_tot
-        mass[~fits, 2:4] = nominal
+        mass[~fits, 2:4] = np.array(self.masses[2:4])
         p[:, 2], p[:, 3], _ = two_body_decay(total, m_tot, mass[:, 2], mass[:, 3], cos_t, phi)
 
     @staticmethod

@@ -244,3 +244,17 @@ def test_michel_electron_spectrum(muon_sample):
     expect = res.cross_section.value * 2 * (prim(edges[1:]) - prim(edges[:-1]))
     pulls = (h - expect) / np.sqrt(e2)
     assert chi2.sf((pulls**2).sum(), pulls.size) > 1e-4, pulls
+
+
+def test_a_resonance_made_alone_keeps_its_mass(tmp_path):
+    """g g -> H -> b bbar: the Higgs of a 2 -> 1 production stays at the mass the production gave it,
+    and the chain conserves momentum (common practice, no source); sigma is sigma(g g -> H) x BR."""
+    text = card("electroweak", ["p", "p"], ["H"], "sqrt_s = 13600.0", '[decays.H]\ninto = ["b", "bbar"]\nbranching_ratio = 0.5',
+                "events = 2000\nweighted_events = 0")
+    res = run(parse_card(text, "hbb.toml"), tmp_path)
+    p, c = _particles(read_table(tmp_path / "unweighted.parquet"))
+    _check_chain(p, c, 13600.0)
+    m_h = read_run(tmp_path / "unweighted.parquet")["parameters"]["model"]["m_H"]
+    np.testing.assert_allclose(c["mass"][:, 2], m_h, rtol=1e-9)
+    _, xs0 = integrate(card("electroweak", ["p", "p"], ["H"], "sqrt_s = 13600.0"))
+    assert within(res.cross_section.value, res.cross_section.error + 0.5 * xs0.error, 0.5 * xs0.value, k=5)
