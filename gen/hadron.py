@@ -32,7 +32,7 @@ from .card import RunConfig
 from .constants import HBARC2_PB
 from .errors import CardError, UserError
 from .events import EventData, EventLayout
-from .kinematics import AngularMap, boost_z, momentum_2body
+from .kinematics import AngularMap
 from .matrix import MODELS, Subprocess, find_subprocesses
 from .matrix.registry import choose_flows
 from .particles import HADRON_PARTONS, species

@@ -31,6 +31,7 @@ from .errors import CardError, OutputError, UserError
 from .card import SPEC
 from .process import ManyBody, TwoToTwo, build_process
 from .references import REFERENCES, Reference
+from .particles import species
 from .store import read_run
 
 __all__ = ["validate", "Thresholds", "OBSERVABLES", "observables_of"]
@@ -54,7 +55,67 @@ OBSERVABLES = {
     "x_quark": ("quark energy fraction 2E/√s (centre-of-mass frame)", ""),
     "x_antiquark": ("antiquark energy fraction 2E/√s (centre-of-mass frame)", ""),
     "x_gluon": ("gluon energy fraction 2E/√s (centre-of-mass frame)", ""),
+    "pair_mass": ("invariant mass of the outgoing pair [GeV]", "GeV"),
+    "pair_rapidity": ("rapidity of the outgoing pair (laboratory)", ""),
 }
+
+#: the hadron-collider reference: Drell-Yan lepton pairs (see `_drell_yan_grid`)
+DRELL_YAN = Reference(
+    "hadron.drell_yan",
+    "dsigma/dM dy = (2M/s) sum over subprocesses of sigma(q qbar -> gamma*/Z -> l l)(M^2) f_a(x1) f_b(x2), "
+    "x1,2 = (M/sqrt s) e^(+-y), densities of the sample's set at mu_F = M; sigma(q qbar -> l l) is the "
+    "e+e- -> q qbar reference (Ellis, Stirling & Webber (1996) sec. 3.1) with N_c -> 1/N_c",
+    None, lambda s, par: 0.0)
+
+
+def _pair_observables(p: np.ndarray) -> dict[str, np.ndarray]:
+    """Mass and laboratory rapidity of the sum of the two outgoing particles (p: (N, 4, 4))."""
+    q = p[:, 2] + p[:, 3]
+    m = np.sqrt(np.clip(q[:, 0] ** 2 - (q[:, 1:] ** 2).sum(1), 0.0, None))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        y = 0.5 * np.log((q[:, 0] + q[:, 3]) / (q[:, 0] - q[:, 3]))
+    return {"pair_mass": m, "pair_rapidity": y}
+
+
+def _drell_yan_grid(proc, rec: dict, intervals: int):
+    """Gauss-Legendre nodes in (M, y) with their reference weights (pb) and observables."""
+    cfg = proc.cfg
+    scales = cfg.scales
+    if (any(sub.spec.resonance != ("m_Z", "width_Z") for sub in proc.subs) or len(proc.subs[0].outgoing) != 2
+            or any(cfg.cuts[k] != v for k, v in SPEC_DEFAULTS.items() if k not in ("mass_min", "mass_max", "particles"))
+            or "particles" in cfg.cuts or scales["factorization"] not in ("auto", "sqrt_shat") or scales["factor"] != 1
+            or proc.beta != 0.0):
+        raise UserError(f"{cfg.source}: gen validate covers hadron-collider samples of Drell-Yan lepton pairs at "
+                        "symmetric beams with mass cuts only and the factorization scale at the pair mass")
+    s = proc.s
+    m_lo, m_hi = math.sqrt(proc.shat_min), math.sqrt(proc.shat_max)
+    xm, wm = np.polynomial.legendre.leggauss(4)
+    edges = np.linspace(m_lo, m_hi, intervals + 1)
+    half = 0.5 * np.diff(edges)
+    mid = 0.5 * (edges[1:] + edges[:-1])
+    m = (mid[:, None] + half[:, None] * xm[None, :]).ravel()
+    w_m = (half[:, None] * wm[None, :]).ravel()
+    # y in 100 intervals of 4 nodes across |y| <= -ln(M^2/s)/2, so that the reference fills y bins smoothly
+    ey = np.linspace(-1.0, 1.0, 101)
+    xy = (0.5 * (ey[1:] + ey[:-1])[:, None] + 0.5 * np.diff(ey)[:, None] * xm[None, :]).ravel()
+    wy = (0.5 * np.diff(ey)[:, None] * wm[None, :]).ravel()
+    ylim = -0.5 * np.log(m * m / s)
+    y = (ylim[:, None] * xy[None, :]).ravel()
+    w = (w_m[:, None] * ylim[:, None] * wy[None, :]).ravel()
+    mm = np.repeat(m, xy.size)
+    x1, x2 = mm / math.sqrt(s) * np.exp(y), mm / math.sqrt(s) * np.exp(-y)
+    f1 = proc.pdf.xfx_many(proc.pids1, x1, mm) / x1
+    f2 = proc.pdf.xfx_many(proc.pids2, x2, mm) / x2
+    c, wc = np.polynomial.legendre.leggauss(8)
+    par = dict(rec["parameters"]["model"], m1=0.0, m2=0.0, m3=0.0, m4=0.0)
+    dens = np.zeros_like(mm)
+    for k, sub in enumerate(proc.subs):
+        quark = next(p for p in sub.partons if species(p).pdg > 0)
+        sigma_hat = np.array([(wc * REFERENCES[f"electroweak.gamma_z.{quark}"].density(c, sh, par)).sum()
+                              for sh in (m * m)]) / 9.0  # N_c = 3 -> 1/N_c: colour averaged, not summed
+        dens += np.repeat(sigma_hat, xy.size) * f1[proc.sub_a[k]] * f2[proc.sub_b[k]]
+    return w * 2.0 * mm / s * dens, {"pair_mass": mm, "pair_rapidity": y}
+
 
 
 def observables_of(p: np.ndarray, beta_cm: float) -> dict[str, np.ndarray]:
@@ -126,8 +187,6 @@ def _canonical_params(rec: dict, proc: TwoToTwo) -> dict:
 def validate(path: str | Path, out: str | Path | None = None, bins: int = 20,
              thresholds: Thresholds = Thresholds(), plots: bool = True) -> dict:
     """Validate one event file; returns the report (also written as JSON, with PNG plots)."""
-    import boost_histogram as bh
-
     path = Path(path)
     rec = read_run(path)
     try:
@@ -135,10 +194,15 @@ def validate(path: str | Path, out: str | Path | None = None, bins: int = 20,
         proc = build_process(cfg)
     except CardError as exc:
         raise OutputError(f"{path}: the card stored in the file cannot be used: {exc}") from None
-    if not hasattr(proc, "spec"):
-        raise UserError(f"{path}: gen validate covers processes at fixed beam energies without decays; "
-                        "hadron-collider samples and decay chains are checked by the test suite (tests/test_hadron.py, "
-                        "tests/test_decays.py)")
+    hadron = hasattr(proc, "subs") and not hasattr(proc, "chain")
+    if not hasattr(proc, "spec") and not hadron:
+        raise UserError(f"{path}: gen validate covers processes without decays; decay chains are checked by the "
+                        "test suite (tests/test_decays.py)")
+    if hadron:
+        ref = DRELL_YAN
+        w_ref, o_ref = _drell_yan_grid(proc, rec, 400)
+        w_half, _ = _drell_yan_grid(proc, rec, 200)
+        return _compare(path, rec, ref, w_ref, o_ref, w_half, 0.0, bins, thresholds, plots, out, "pair")
     spec = proc.spec
     if spec.reference is None or spec.reference not in REFERENCES:
         raise UserError(f"{path}: no analytic reference for {spec.label} in the {spec.model} model; "
@@ -154,9 +218,17 @@ def validate(path: str | Path, out: str | Path | None = None, bins: int = 20,
     else:
         w_ref, o_ref = _reference_grid(proc, ref, par, s, 40000)
         w_half, _ = _reference_grid(proc, ref, par, s, 20000)
+    return _compare(path, rec, ref, w_ref, o_ref, w_half, ref.accuracy(s, par), bins, thresholds, plots, out,
+                    "three" if three else "two", (proc, s))
+
+
+def _compare(path, rec, ref, w_ref, o_ref, w_half, accuracy, bins, thresholds, plots, out, kind, ctx=None) -> dict:
+    """Histogram the file against the reference grid and write the report."""
+    import boost_histogram as bh
+
     sigma_ref = float(w_ref.sum())
     sigma_ref_num = abs(sigma_ref - float(w_half.sum()))
-    sigma_ref_acc = ref.accuracy(s, par) * sigma_ref
+    sigma_ref_acc = accuracy * sigma_ref
 
     axes = {}
     for name, vals in o_ref.items():
@@ -181,7 +253,10 @@ def validate(path: str | Path, out: str | Path | None = None, bins: int = 20,
         n = int(parts.offsets[1].as_py() - parts.offsets[0].as_py()) if len(parts) else 0
         comp = np.stack([flat.field(k).to_numpy(zero_copy_only=False) for k in ("e", "px", "py", "pz")], -1)
         mom = comp.reshape(len(w), n, 4)
-        if three:
+        if kind == "pair":
+            obs = _pair_observables(mom)
+        elif kind == "three":
+            proc, s = ctx
             obs = _energy_fractions(mom, rec["collider"]["cm_beta_z"], math.sqrt(s), proc.canonical[2:5])
         else:
             obs = observables_of(mom[:, 2, :], rec["collider"]["cm_beta_z"])
