@@ -34,7 +34,7 @@ from .errors import CardError, UserError
 from .events import EventData, EventLayout
 from .kinematics import AngularMap
 from .matrix import MODELS, Subprocess, find_subprocesses
-from .matrix.registry import choose_flows
+from .matrix.registry import choose_flows, draw_index, flow_tags
 from .particles import HADRON_PARTONS, species
 from .process import cut_mask, has_cuts, process_label, resolved_mass
 
@@ -123,8 +123,10 @@ class HadronCollision:
         self.sub_a = np.empty(len(self.subs), np.int64)
         self.sub_b = np.empty(len(self.subs), np.int64)
         self.sub_sym = np.empty(len(self.subs))
+        # t <-> u between the card's order (t against beam 1's parton and slot 1) and the spec's
+        self.sub_flipped = [(sub.in_perm[0] != 0) != (self.n_out == 2 and sub.out_perm[0] != 0) for sub in self.subs]
         for i, sub in enumerate(self.subs):
-            flipped = (sub.in_perm[0] != 0) != (self.n_out == 2 and sub.out_perm[0] != 0)
+            flipped = self.sub_flipped[i]
             key = (id(sub.spec.matrix), flipped, sub.out_perm)
             if key not in keys:
                 keys[key] = len(self.evals)
@@ -146,7 +148,7 @@ class HadronCollision:
         heavy = any(species(p).colour != 1 or p in _MASSIVE for sub in self.subs for p in sub.outgoing)
         self.auto_scale = "half_ht" if heavy and self.n_out == 2 else "sqrt_shat"
         # colour: group subprocesses sharing flows and permutations; tags in card order per flow
-        self.flow_groups: list[tuple[tuple, np.ndarray, object]] = []
+        self.flow_groups: list[tuple[tuple, np.ndarray, bool]] = []  # flows, their tags, t <-> u flipped
         group_of: dict[tuple, int] = {}
         self.sub_flow_group = np.empty(len(self.subs), np.int64)
         for i, sub in enumerate(self.subs):
@@ -154,12 +156,8 @@ class HadronCollision:
             key = (id(flows), sub.in_perm, sub.out_perm)
             if key not in group_of:
                 canonical = [sub.in_perm[0], sub.in_perm[1]] + [2 + j for j in sub.out_perm]
-                tags = np.zeros((max(len(flows), 1), n, 2), np.int32)
-                for f, flow in enumerate(flows):
-                    for k, user in enumerate(canonical):
-                        tags[f, user] = flow.tags[k]
                 group_of[key] = len(self.flow_groups)
-                self.flow_groups.append((flows, tags, sub))
+                self.flow_groups.append((flows, flow_tags(flows, canonical, n), self.sub_flipped[i]))
             self.sub_flow_group[i] = group_of[key]
         # slots that may be shuffled: the same name in the card
         names_out = [p.name for p in self.cfg.outgoing]
@@ -367,9 +365,7 @@ class HadronCollision:
         d = self._terms(x)
         # share of each subprocess at each point
         w_sub = d["me"][self.sub_key] * d["f1"][self.sub_a] * d["f2"][self.sub_b] * self.sub_sym[:, None]
-        cum = np.cumsum(w_sub, axis=0)
-        r = rng.random(n) * cum[-1]
-        sub = np.minimum((cum < r[None, :]).sum(axis=0), len(self.subs) - 1)
+        sub = draw_index(w_sub, rng.random(n))
         phi = rng.random(n) * (2.0 * math.pi)
         npart = 2 + self.n_out
         p = np.empty((n, npart, 4))
@@ -382,11 +378,13 @@ class HadronCollision:
         groups = self.sub_flow_group[sub]
         pick = rng.random(n)
         for g in np.unique(groups):
-            flows, tags, owner = self.flow_groups[g]
+            flows, tags, flipped = self.flow_groups[g]
             sel = np.flatnonzero(groups == g)
             if not flows:
                 continue
-            s, t, u = self._canonical(owner, d["shat"][sel], d["t"][sel], d["u"][sel])
+            s, t, u = d["shat"][sel], d["t"][sel], d["u"][sel]
+            if flipped:
+                t, u = u, t
             par = dict(self.params, alpha_s=d["alpha_s"][sel], m3=self.m_out[0], m4=self.m_out[-1])
             choice = choose_flows(flows, s, t, u, par, pick[sel])
             colour[sel] = tags[choice, :, 0]
@@ -397,10 +395,6 @@ class HadronCollision:
                 arr[swap, 2], arr[swap, 3] = arr[swap, 3].copy(), arr[swap, 2].copy()
         return EventData(p, pdg, colour, anticolour, sub.astype(np.int16), d["mu_r"], d["mu_f"],
                          d["alpha_s"] if self.strong else None, d["x1"], d["x2"])
-
-    def _canonical(self, sub: Subprocess, s, t, u):
-        flipped = (sub.in_perm[0] != 0) != (self.n_out == 2 and sub.out_perm[0] != 0)
-        return (s, u, t) if flipped else (s, t, u)
 
     def momenta(self, x, rng):
         return self.events(x, rng).momenta

@@ -19,7 +19,7 @@ from .errors import CardError
 from .events import EventData, EventLayout
 from .kinematics import AngularMap, boost_z, kallen, momentum_2body, two_body
 from .matrix import MODELS, ProcessSpec, find_process
-from .matrix.registry import choose_flows
+from .matrix.registry import choose_flows, flow_tags
 from .particles import Species, species
 from .phasespace import sequential
 
@@ -204,6 +204,7 @@ class TwoToTwo(_FixedBeams):
         self.flip = self.out_perm[0] != 0
         self.in_flip = self.in_perm[0] != 0
         self.map = self._angular_map()
+        self._flow_tags = flow_tags(self.spec.colour_flows, self.canonical, len(self.species))
 
     # --- angular variable ------------------------------------------------------------------
     def _angular_map(self) -> AngularMap:
@@ -284,11 +285,7 @@ class TwoToTwo(_FixedBeams):
         p = self.momenta(x, rng)
         s, t, u = self._mandelstam(self.map(x[:, 0])[0])
         choice = choose_flows(flows, s, t, u, self.me_params, rng.random(x.shape[0]))
-        tags = np.zeros((len(flows), 4, 2), np.int32)
-        for f, flow in enumerate(flows):
-            for k, user in enumerate(self.canonical):
-                tags[f, user] = flow.tags[k]
-        return EventData(p, colour=tags[choice, :, 0], anticolour=tags[choice, :, 1])
+        return EventData(p, colour=self._flow_tags[choice, :, 0], anticolour=self._flow_tags[choice, :, 1])
 
     def momenta(self, x, rng: np.random.Generator):
         """Laboratory momenta (N, 4, 4) for points x: incoming then outgoing, in the user's order."""
@@ -414,18 +411,13 @@ def single_process_layout(proc, n_in: int) -> EventLayout:
     """The layout of a run of one process: its particles in card order, outgoing ones children of
     the incoming, the spec's single colour flow (canonical particle k is the card's proc.canonical[k])."""
     n = len(proc.species)
-    colour = np.zeros(n, np.int32)
-    anticolour = np.zeros(n, np.int32)
-    flows = proc.spec.colour_flows
-    if flows:  # several flows: the first is the default, events() chooses per event
-        for canon_k, user_i in enumerate(proc.canonical):
-            colour[user_i], anticolour[user_i] = flows[0].tags[canon_k]
+    tags = flow_tags(proc.spec.colour_flows, proc.canonical, n)[0]  # several flows: events() chooses per event
     return EventLayout(
         pdg=np.array([p.pdg for p in proc.species], np.int32),
         roles=["incoming"] * n_in + ["outgoing"] * (n - n_in),
         parent_first=np.array([-1] * n_in + [0] * (n - n_in), np.int16),
         parent_last=np.array([-1] * n_in + [n_in - 1] * (n - n_in), np.int16),
-        colour=colour, anticolour=anticolour, mass=np.array(proc.masses, np.float64),
+        colour=tags[:, 0], anticolour=tags[:, 1], mass=np.array(proc.masses, np.float64),
         subprocesses=[process_label(proc.cfg)], scale=proc.sqrt_s, alpha_em=float(proc.params.get("alpha", 0.0)),
         alpha_s=proc.params.get("alpha_s"))
 

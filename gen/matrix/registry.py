@@ -19,7 +19,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-__all__ = ["Param", "ProcessSpec", "Model", "ColourFlow", "chain_flow", "choose_flows"]
+__all__ = ["Param", "ProcessSpec", "Model", "ColourFlow", "chain_flow", "choose_flows", "draw_index", "flow_tags"]
 
 #: |M|^2(s, t, u, params) -> array; s, t, u are float64 arrays of equal shape (GeV^2).
 MatrixElement = Callable[[np.ndarray, np.ndarray, np.ndarray, Mapping[str, float]], np.ndarray]
@@ -77,13 +77,29 @@ def chain_flow(n: int, chains, weight=None, n_in: int = 2) -> ColourFlow:
     return ColourFlow(tags, weight)
 
 
+def draw_index(weights: np.ndarray, r: np.ndarray) -> np.ndarray:
+    """Per point (column), the row drawn with probability proportional to weights (k, N) >= 0;
+    r holds one uniform number per point."""
+    cum = np.cumsum(weights, axis=0)
+    return np.minimum((cum < (r * cum[-1])[None, :]).sum(axis=0), weights.shape[0] - 1)
+
+
 def choose_flows(flows, s, t, u, par, r) -> np.ndarray:
     """Index of the flow chosen at each point, with probability proportional to the flows'
-    leading-colour weights at (s, t, u) (canonical order); r holds one uniform number per point."""
+    leading-colour weights at (s, t, u) (canonical order)."""
     if len(flows) < 2:
         return np.zeros(np.shape(s), np.int64)
-    cum = np.cumsum(np.stack([fl.weight(s, t, u, par) for fl in flows]), axis=0)
-    return np.minimum((cum < (r * cum[-1])[None, :]).sum(axis=0), len(flows) - 1)
+    return draw_index(np.stack([fl.weight(s, t, u, par) for fl in flows]), r)
+
+
+def flow_tags(flows, canonical, n: int) -> np.ndarray:
+    """Tags (len(flows) or 1, n, 2) of each flow in the card's particle order; canonical particle k
+    is the card's particle canonical[k]."""
+    tags = np.zeros((max(len(flows), 1), n, 2), np.int32)
+    for f, flow in enumerate(flows):
+        for k, user in enumerate(canonical):
+            tags[f, user] = flow.tags[k]
+    return tags
 
 
 @dataclass(frozen=True)
