@@ -177,13 +177,13 @@ class DecayChain:
                            mass=np.array(self.masses, np.float64), subprocesses=base.subprocesses, scale=base.scale,
                            alpha_em=base.alpha_em, alpha_s=base.alpha_s)
 
-    def _draw_mass(self, st: _Step, n: int, lo: np.ndarray, hi: np.ndarray, rng) -> np.ndarray:
-        """Masses from a Breit-Wigner in s truncated to [lo, hi] per event (lo < hi)."""
+    def _draw_mass(self, st: _Step, n: int, lo: np.ndarray, rng) -> np.ndarray:
+        """Masses from a Breit-Wigner in s truncated to the window and to at least lo per event."""
         m, w = st.mass, st.width
         if w <= 0.0:
             return np.full(n, m)
         lo = np.maximum(lo, m - st.decay.window * w)
-        hi = np.minimum(hi, m + st.decay.window * w)
+        hi = m + st.decay.window * w
         a1 = np.arctan((np.maximum(lo, 0.0) ** 2 - m * m) / (m * w))
         a2 = np.arctan((hi * hi - m * m) / (m * w))
         s = m * m + m * w * np.tan(a1 + (a2 - a1) * rng.random(n))
@@ -194,12 +194,11 @@ class DecayChain:
         p0 = data.momenta
         nev, n0 = p0.shape[0], p0.shape[1]
         n = len(self.names)
-        mass = np.empty((nev, n))
-        mass[:] = np.array(self.masses)
+        mass = np.tile(np.array(self.masses), (nev, 1))
         # masses: products first (innermost decays last in the list), so parents see their children
         for st in reversed(self.steps):
             kids_min = mass[:, st.children[0]] + mass[:, st.children[1]]
-            mass[:, st.parent] = self._draw_mass(st, nev, kids_min * (1 + 1e-9), np.full(nev, np.inf), rng)
+            mass[:, st.parent] = self._draw_mass(st, nev, kids_min * (1 + 1e-9), rng)
         p = np.zeros((nev, n, 4))
         p[:, :n0] = p0
         self._remass_production(p, mass, n0)
