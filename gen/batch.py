@@ -178,7 +178,7 @@ def merge(paths: list[str | Path], out: str | Path, progress: Progress | None = 
                 labels = sorted({k for pf in files for k in pf.record["cross_section"]["by_subprocess"]})
                 counts = np.array([sum(pf.record["cross_section"]["by_subprocess"].get(k, {}).get("events", 0)
                                        for pf in files) for k in labels])
-                rec["cross_section"]["by_subprocess"] = by_subprocess(labels, counts, counts * 0.0, combined["value_pb"], True)
+                rec["cross_section"]["by_subprocess"] = by_subprocess(labels, counts, combined["value_pb"])
                 rec["unweighting"] = {k: combined[k] for k in ("efficiency", "overflow_events", "overflow_share")}
                 rec["unweighting"].update(trials=combined["sampling"]["trials"], accepted=combined["events"],
                                           max_weight_pb=files[0].record["unweighting"]["max_weight_pb"])

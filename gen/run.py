@@ -94,19 +94,19 @@ def _measure(proc, xs: CrossSection) -> dict:
     return m
 
 
-def by_subprocess(labels: list[str], counts: np.ndarray, sums: np.ndarray, total: float, unweighted: bool) -> dict:
-    """sigma per subprocess (pb): the total times the share of events (unweighted, with its binomial
-    error) or the sum of the subprocess's weights (weighted)."""
+def by_subprocess(labels: list[str], counts: np.ndarray, total: float, sums: np.ndarray | None = None) -> dict:
+    """sigma per subprocess (pb): for unweighted events (no sums) the total times the share of
+    events, with its binomial error; for weighted events the sum of the subprocess's weights."""
     n = counts.sum()
     out = {}
-    for label, k, sw in zip(labels, counts, sums):
+    for i, (label, k) in enumerate(zip(labels, counts)):
         if k == 0:
             continue
-        if unweighted:
+        if sums is None:
             share = k / n
             out[label] = {"value_pb": total * share, "error_pb": total * math.sqrt(share * (1 - share) / n), "events": int(k)}
         else:
-            out[label] = {"value_pb": float(sw), "events": int(k)}
+            out[label] = {"value_pb": float(sums[i]), "events": int(k)}
     return out
 
 
@@ -205,7 +205,7 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
             counts, sums = _stream(wr, layout, proc, rng_unw, chunks, index * JOB_STRIDE,
                                    lambda n: progress.update(stats.accepted, f"efficiency {stats.efficiency:.1%}"))
             progress.end(f"efficiency {stats.efficiency:.1%}, {stats.overflow_events} above w_max")
-            xs_rec = dict(base["cross_section"], by_subprocess=by_subprocess(layout.subprocesses, counts, sums, xs.value, True))
+            xs_rec = dict(base["cross_section"], by_subprocess=by_subprocess(layout.subprocesses, counts, xs.value))
             wr.finish(dict(base, created=now(), weighting="unweighted", cross_section=xs_rec,
                            events={"count": wr.rows, "sum_weights_pb": wr.sum_w, "max_weight_pb": wr.max_w},
                            unweighting=stats.as_dict()))
@@ -221,7 +221,7 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
 
             counts, sums = _stream(wr, layout, proc, rng_w, sampler.weighted(rng_w, n_w), index * JOB_STRIDE, step)
             progress.end(f"{wr.rows} events, sum of weights {wr.sum_w:.5e} pb")
-            xs_rec = dict(base["cross_section"], by_subprocess=by_subprocess(layout.subprocesses, counts, sums, xs.value, False))
+            xs_rec = dict(base["cross_section"], by_subprocess=by_subprocess(layout.subprocesses, counts, xs.value, sums))
             wr.finish(dict(base, created=now(), weighting="weighted", cross_section=xs_rec,
                            events={"count": wr.rows, "trials": n_w, "sum_weights_pb": wr.sum_w,
                                    "max_weight_pb": wr.max_w}))
