@@ -12,6 +12,9 @@ and prints:
 - the ratio of end-to-end time to the sum of the bare parts, peak memory and the unweighting
   efficiency.
 
+`--startup` instead times the start of commands (`gen --version`, `gen --help`, `gen processes`)
+in fresh processes beside a bare interpreter, and lists what their imports cost (`-X importtime`).
+
 `--hadron N` instead runs dijets and Drell-Yan with the default parton-density set and prints
 events per second end to end, the share of the integrand's time spent in parton densities and the
 unweighting efficiency; `--pdf` measures density evaluations per second.
@@ -49,16 +52,17 @@ def _one(n: int, repeat: int) -> dict:
     import numpy as np
     import pyarrow.parquet as pq
 
-    import gen
-    from gen.process import build_process
+    from gen.card import parse_card
+    from gen.jobs.run import run
+    from gen.processes import build_process
 
-    cfg = gen.parse_card(CARD.format(n=n), "benchmark.toml")
+    cfg = parse_card(CARD.format(n=n), "benchmark.toml")
     e2e, bare_f, bare_w = [], [], []
     eff = 0.0
     with tempfile.TemporaryDirectory() as tmp:
         for r in range(repeat):
             t0 = time.perf_counter()
-            res = gen.run(cfg, folder=Path(tmp) / f"run{r}")
+            res = run(cfg, folder=Path(tmp) / f"run{r}")
             e2e.append(time.perf_counter() - t0)
             if r == 0:  # peak memory of the run itself, before the bare parts load a whole table
                 rss_run = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
@@ -103,22 +107,23 @@ def _dask(n: int, parts: int) -> None:
     from dask.distributed import Client, LocalCluster
 
     import dask
-    import gen
-    from gen.distributed import local_cluster_config, run_parts_on_dask
-    from gen.grid import Grid, make_grid
-    from gen.process import build_process
+    from gen.card import parse_card
+    from gen.jobs.run import run
+    from gen.jobs.distributed import local_cluster_config, run_parts_on_dask
+    from gen.sampling.grid import Grid, make_grid
+    from gen.processes import build_process
 
     with tempfile.TemporaryDirectory() as tmp:
-        cfg = gen.parse_card(CARD.format(n=n), "benchmark.toml")
+        cfg = parse_card(CARD.format(n=n), "benchmark.toml")
         grid_path = make_grid(build_process(cfg), cfg).save(Path(tmp) / "grid.json")
         grid = Grid.load(grid_path)
         t0 = time.perf_counter()
         for j in range(parts):
-            gen.run(cfg, folder=Path(tmp) / "seq", grid=grid, job=j, jobs=parts)
+            run(cfg, folder=Path(tmp) / "seq", grid=grid, job=j, jobs=parts)
         seq = time.perf_counter() - t0
         print(f"no Dask, parts one after another: {n} events in {parts} parts: {seq:.2f} s ({n / seq:.0f} events/s)")
         walls = {}
-        tiny = gen.parse_card(CARD.format(n=40 * 100), "benchmark.toml")
+        tiny = parse_card(CARD.format(n=40 * 100), "benchmark.toml")
         tiny_grid = make_grid(build_process(tiny), tiny).save(Path(tmp) / "tiny.json")
         for workers in (1, 2):
             t0 = time.perf_counter()
@@ -149,7 +154,7 @@ def _pdf() -> None:
     """Parton-density points per second (one flavour, cubic in log x and log Q^2), median of 5."""
     import numpy as np
 
-    from gen import pdf
+    from gen.physics import pdf
 
     s = pdf.load()
     rng = np.random.default_rng(1)
@@ -187,19 +192,20 @@ HADRON_CARDS = {
 def _hadron(n: int, repeat: int) -> None:
     """Hadron-collider runs with the default set: end-to-end events per second, the share of the
     integrand's time spent in parton-density evaluation, the unweighting efficiency."""
-    import gen
-    from gen import pdf as gpdf
-    from gen.process import build_process
+    from gen.card import parse_card
+    from gen.jobs.run import run
+    from gen.physics import pdf as gpdf
+    from gen.processes import build_process
 
     print(f"{'process':<36} {'events':>8} {'end-to-end':>11} {'events/s':>9} {'densities':>10} {'efficiency':>10}")
     for label, (model, outgoing, cuts) in HADRON_CARDS.items():
         text = HADRON_CARD.format(model=model, outgoing=outgoing, cuts=cuts, n=n)
-        cfg = gen.parse_card(text, "benchmark.toml")
+        cfg = parse_card(text, "benchmark.toml")
         times, eff = [], 0.0
         with tempfile.TemporaryDirectory() as tmp:
             for r in range(repeat):
                 t0 = time.perf_counter()
-                res = gen.run(cfg, folder=Path(tmp) / f"run{r}")
+                res = run(cfg, folder=Path(tmp) / f"run{r}")
                 times.append(time.perf_counter() - t0)
                 eff = res.unweighting.efficiency
         # share of the integrand's time in the densities: time both on the same points
@@ -227,6 +233,48 @@ def _hadron(n: int, repeat: int) -> None:
         print(f"{label:<36} {n:>8} {med:>9.2f} s {n / med:>9.0f} {spent[0] / total:>10.0%} {eff:>10.1%}")
 
 
+STARTUP_COMMANDS = {
+    "python -c pass (bare interpreter)": ["-c", "pass"],
+    "gen --version": ["-m", "gen.cli", "--version"],
+    "gen --help": ["-m", "gen.cli", "--help"],
+    "gen processes": ["-m", "gen.cli", "processes"],
+}
+
+
+def _startup(repeat: int) -> None:
+    """Median wall and CPU seconds of each command over `repeat` fresh processes, and the modules
+    whose import costs most in `gen processes` (cumulative microseconds from -X importtime)."""
+    import shutil
+
+    commands = {label: [sys.executable, *args] for label, args in STARTUP_COMMANDS.items()}
+    script = shutil.which("gen")
+    if script:  # the installed command adds its entry-point lookup
+        commands.update({f"{label} (installed script)": [script, *args[2:]] for label, args in STARTUP_COMMANDS.items()
+                         if args[0] == "-m"})
+    print(f"{'command':<46} {'wall (median)':>14} {'CPU (median)':>13}")
+    for label, cmd in commands.items():
+        walls, cpus = [], []
+        for _ in range(max(repeat, 5)):
+            before = resource.getrusage(resource.RUSAGE_CHILDREN)
+            t0 = time.perf_counter()
+            subprocess.run(cmd, capture_output=True, check=True)
+            walls.append(time.perf_counter() - t0)
+            after = resource.getrusage(resource.RUSAGE_CHILDREN)
+            cpus.append(after.ru_utime + after.ru_stime - before.ru_utime - before.ru_stime)
+        print(f"{label:<46} {statistics.median(walls):>12.3f} s {statistics.median(cpus):>11.3f} s")
+    r = subprocess.run([sys.executable, "-X", "importtime", "-m", "gen.cli", "processes"], capture_output=True,
+                       text=True, check=True)
+    rows = []
+    for line in r.stderr.splitlines():
+        if line.startswith("import time:") and "|" in line:
+            _, cumulative, name = line.split("|")
+            if cumulative.strip().isdigit():
+                rows.append((int(cumulative), name.rstrip()))
+    print("largest cumulative imports of `gen processes` (ms):")
+    for us, name in sorted(rows, reverse=True)[:8]:
+        print(f"  {us / 1000:8.1f}  {name.strip()}")
+
+
 def main(argv=None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", type=int, nargs="+", default=[1_000_000])
@@ -236,7 +284,11 @@ def main(argv=None) -> int:
     ap.add_argument("--parts", type=int, default=8, help="parts for --dask")
     ap.add_argument("--pdf", action="store_true", help="instead: parton-density evaluations per second")
     ap.add_argument("--hadron", type=int, metavar="N", help="instead: N unweighted dijet and Drell-Yan events at 13.6 TeV")
+    ap.add_argument("--startup", action="store_true", help="instead: start-up time of commands")
     args = ap.parse_args(argv)
+    if args.startup:
+        _startup(args.repeat)
+        return 0
     if args.hadron:
         _hadron(args.hadron, args.repeat)
         return 0

@@ -1,43 +1,49 @@
-"""Run cards: TOML in, a validated and typed `RunConfig` out.
+"""Run cards: TOML in, a validated and resolved `RunConfig` out, in one pass, in one place.
 
-Every key a card may hold is described once, in `SPEC` below; the card reference in the README is
-made from it (`reference_markdown`). Errors name the card file and the key path, say what was
-found and what is accepted, and suggest the closest key or particle name.
+Every key a card may hold is described once, as a `gen.keys.Key` in `SPEC` (and the models'
+parameters in their own modules); every rule that relates keys to each other or to the physics
+(beams above threshold, the cuts a process needs, decays that conserve charge, colour and lepton
+number, keys that would have no effect) is one entry of `RULES`, checked in order. The card
+reference in the README is made from both (`reference_markdown`). Errors name the card file and
+the key path, say what was found and what is accepted, and suggest the closest key, the section
+a misplaced key belongs to, or the model that has the process.
+
+What the rules establish (the matched process, resolved parameters and masses, beam momenta, the
+parton-density set, the decay steps) is kept in `RunConfig.resolved`, so that nothing downstream
+derives it again. Checks that need the integrand itself (cuts that empty the phase space, an
+integrand that vanishes) are made where the phase space is built.
 """
 
 from __future__ import annotations
 
 import math
 import tomllib
-from dataclasses import dataclass
+from collections import Counter
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
-from .decays import parse_decays
 from .errors import CardError, close_matches
-from .matrix import MODELS, find_process, find_subprocesses
-from .particles import HADRON_PARTONS, Species, lookup
+from .keys import NUMBER, Key, type_name
+from .physics import pdf as _pdf
+from .physics import widths as _widths
+from .physics.kinematics import two_body_momentum
+from .physics.matrix import MODELS, Ordering, Subprocess, find_process, find_subprocesses
+from .physics.particles import HADRON_PARTONS, Species, lookup, species
 
-__all__ = ["RunConfig", "load_card", "parse_card", "SPEC", "reference_markdown"]
+__all__ = ["RunConfig", "Resolved", "DecayStep", "load_card", "parse_card", "SPEC", "RULES", "reference_markdown",
+           "CARD_SCHEMA_VERSION", "SCALE_CHOICES"]
 
+#: version of the card format (sections, keys and rules); written into every run record
+CARD_SCHEMA_VERSION = "2.0"
 
-@dataclass(frozen=True)
-class Key:
-    """One card key: its type, default, allowed range or choices, unit and meaning."""
+SCALE_CHOICES = ("auto", "sqrt_shat", "half_ht", "pt")
 
-    kind: type | tuple[type, ...]
-    default: Any = None
-    lo: float | None = None
-    hi: float | None = None
-    unit: str = ""
-    doc: str = ""
-    choices: tuple[str, ...] = ()
-    required: bool = False
+#: particles whose masses hadron collisions keep (partons, leptons and photons are massless there)
+MASSIVE_IN_HADRON_COLLISIONS = ("t", "tbar", "W+", "W-", "Z", "H")
 
-
-_NUM = (int, float)
-
-#: The card's sections and keys. `parameters` is checked against the chosen model instead.
+#: the card's sections and keys; [parameters] is described by the chosen model, [decays] by DECAY_KEYS
 SPEC: dict[str, dict[str, Key]] = {
     "process": {
         "model": Key(str, required=True, choices=tuple(MODELS), doc="model of the process library"),
@@ -47,46 +53,49 @@ SPEC: dict[str, dict[str, Key]] = {
                         "beams one or two, and group names (jet, quark, antiquark, l-, l+, nu, nubar) stand for any of their members"),
     },
     "collider": {
-        "sqrt_s": Key(_NUM, lo=0.0, unit="GeV", doc="head-on beams of equal energy sqrt_s/2 (laboratory = centre-of-mass frame)"),
+        "sqrt_s": Key(NUMBER, lo=0.0, lo_open=True, unit="GeV", doc="head-on beams of equal energy sqrt_s/2 (laboratory = centre-of-mass frame)"),
         "beam_energies": Key(list, unit="GeV", doc="[E1, E2]: head-on beams of these energies, beam 1 along +z"),
-        "beam_energy": Key(_NUM, lo=0.0, unit="GeV", doc="fixed target: beam 1 of this energy along +z onto particle 2 at rest"),
+        "beam_energy": Key(NUMBER, lo=0.0, lo_open=True, unit="GeV", doc="fixed target: beam 1 of this energy along +z onto particle 2 at rest"),
     },
     "cuts": {
         "particles": Key(list, doc="outgoing particles the cuts apply to (default: all outgoing)"),
-        "theta_min_deg": Key(_NUM, 0.0, 0.0, 180.0, "deg", "smallest polar angle to +z in the laboratory, each particle"),
-        "theta_max_deg": Key(_NUM, 180.0, 0.0, 180.0, "deg", "largest polar angle to +z in the laboratory, each particle"),
-        "energy_min": Key(_NUM, 0.0, 0.0, None, "GeV", "smallest laboratory energy, each particle"),
-        "energy_max": Key(_NUM, math.inf, 0.0, None, "GeV", "largest laboratory energy, each particle"),
-        "pt_min": Key(_NUM, 0.0, 0.0, None, "GeV", "smallest transverse momentum, each particle"),
-        "pt_max": Key(_NUM, math.inf, 0.0, None, "GeV", "largest transverse momentum, each particle"),
-        "mass_min": Key(_NUM, 0.0, 0.0, None, "GeV", "smallest invariant mass of the selected particles together"),
-        "mass_max": Key(_NUM, math.inf, 0.0, None, "GeV", "largest invariant mass of the selected particles together"),
-        "pair_mass_min": Key(_NUM, 0.0, 0.0, None, "GeV", "smallest invariant mass of every pair of selected particles"),
-        "eta_max": Key(_NUM, math.inf, 0.0, None, "", "largest |pseudorapidity| in the laboratory, each particle"),
-        "rapidity_max": Key(_NUM, math.inf, 0.0, None, "", "largest |rapidity| in the laboratory, each particle"),
-        "delta_r_min": Key(_NUM, 0.0, 0.0, None, "", "smallest Delta R = sqrt(Delta eta^2 + Delta phi^2) of every pair of selected particles"),
+        "theta_min_deg": Key(NUMBER, 0.0, 0.0, 180.0, "deg", "smallest polar angle to +z in the laboratory, each particle"),
+        "theta_max_deg": Key(NUMBER, 180.0, 0.0, 180.0, "deg", "largest polar angle to +z in the laboratory, each particle"),
+        "energy_min": Key(NUMBER, 0.0, 0.0, None, "GeV", "smallest laboratory energy, each particle"),
+        "energy_max": Key(NUMBER, math.inf, 0.0, None, "GeV", "largest laboratory energy, each particle", allow_inf=True),
+        "pt_min": Key(NUMBER, 0.0, 0.0, None, "GeV", "smallest transverse momentum, each particle"),
+        "pt_max": Key(NUMBER, math.inf, 0.0, None, "GeV", "largest transverse momentum, each particle", allow_inf=True),
+        "mass_min": Key(NUMBER, 0.0, 0.0, None, "GeV", "smallest invariant mass of the selected particles together"),
+        "mass_max": Key(NUMBER, math.inf, 0.0, None, "GeV", "largest invariant mass of the selected particles together",
+                        allow_inf=True),
+        "pair_mass_min": Key(NUMBER, 0.0, 0.0, None, "GeV", "smallest invariant mass of every pair of selected particles"),
+        "eta_max": Key(NUMBER, math.inf, 0.0, None, "", "largest |pseudorapidity| in the laboratory, each particle",
+                       allow_inf=True, lo_open=True),
+        "rapidity_max": Key(NUMBER, math.inf, 0.0, None, "", "largest |rapidity| in the laboratory, each particle",
+                            allow_inf=True, lo_open=True),
+        "delta_r_min": Key(NUMBER, 0.0, 0.0, None, "", "smallest Delta R = sqrt(Delta eta^2 + Delta phi^2) of every pair of selected particles"),
     },
     "partons": {
-        "set": Key(str, "genbench-lo", doc="parton-density set: a name searched in LHAPDF_DATA_PATH and the sets shipped "
+        "set": Key(str, _pdf.DEFAULT_SET, doc="parton-density set: a name searched in LHAPDF_DATA_PATH and the sets shipped "
                    "with gen, or a set's folder (default: the shipped benchmark set, not a fit to data)"),
         "member": Key(int, 0, 0, 10000, "", "member of the set"),
         "alpha_s": Key(str, "set", doc="running coupling: from the set's metadata, or run at one or two loops from alpha_s_mz",
                        choices=("set", "one_loop", "two_loop")),
-        "alpha_s_mz": Key(_NUM, 0.118, 0.05, 0.3, "", "alpha_s(m_Z) for alpha_s = one_loop or two_loop"),
+        "alpha_s_mz": Key(NUMBER, 0.118, 0.05, 0.3, "", "alpha_s(m_Z) for alpha_s = one_loop or two_loop"),
     },
     "scales": {
         "renormalization": Key((str, int, float), "auto", unit="GeV", doc="scale of alpha_s: sqrt_shat, half_ht (half "
                                "the scalar sum of the outgoing transverse masses), pt (of the first outgoing particle), a "
-                               "number in GeV, or auto: half_ht when coloured or massive particles come out, else sqrt_shat; "
-                               "dynamic scales are floored at 1 GeV"),
+                               "number in GeV within the parton set's Q range, or auto: half_ht when coloured or massive "
+                               "particles come out, else sqrt_shat; dynamic scales are floored at 1 GeV"),
         "factorization": Key((str, int, float), "auto", unit="GeV", doc="scale of the parton densities (same choices)"),
-        "factor": Key(_NUM, 1.0, 0.01, 100.0, "", "multiplies both scales (vary it to estimate the scale uncertainty)"),
+        "factor": Key(NUMBER, 1.0, 0.01, 100.0, "", "multiplies both scales (vary it to estimate the scale uncertainty)"),
     },
     "integration": {
         "warmup_iterations": Key(int, 5, 0, 1000, "", "vegas iterations that adapt the grid and are discarded"),
         "iterations": Key(int, 10, 1, 1000, "", "vegas iterations whose weighted average is the cross-section"),
         "points_per_iteration": Key(int, 20000, 100, 1e9, "", "integrand evaluations per iteration"),
-        "consistency_min_q": Key(_NUM, 0.01, 0.0, 1.0, "", "warn when the iterations' chi-square Q falls below this"),
+        "consistency_min_q": Key(NUMBER, 0.01, 0.0, 1.0, "", "warn when the iterations' chi-square Q falls below this"),
     },
     "sampling": {
         "events": Key(int, 10000, 0, 1e12, "", "unweighted events to write"),
@@ -101,6 +110,72 @@ SPEC: dict[str, dict[str, Key]] = {
     },
 }
 
+#: [parameters.masses] and [parameters.widths]: particle = value
+PARTICLE_VALUE = Key(NUMBER, None, 0.0, 1e5, "GeV", "", default_doc="PDG")
+
+#: the keys of each [decays.<particle>] table
+DECAY_KEYS: dict[str, Key] = {
+    "into": Key(list, required=True, doc="the two particles it decays into"),
+    "branching_ratio": Key(NUMBER, None, 0.0, 1.0, "", "its branching ratio", lo_open=True,
+                           default_doc="tree-level partial widths"),
+    "window": Key(NUMBER, 10.0, 0.0, 1e6, "widths", "half-width of the Breit-Wigner mass window, in widths", lo_open=True),
+}
+
+#: every section a card may have, in the order of the reference
+SECTIONS = ("process", "collider", "parameters", "cuts", "partons", "scales", "decays", "integration", "sampling",
+            "output")
+
+
+# --- the validated card ---------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class DecayStep:
+    """One decay of an event's particle list: the parent's index, its two products' indices, the
+    parent's nominal mass and width (GeV), the branching ratio and where it came from, the window."""
+
+    parent: int
+    children: tuple[int, int]
+    particle: str
+    products: tuple[str, str]
+    mass: float
+    width: float
+    branching_ratio: float
+    branching_ratio_source: str
+    window: float
+
+
+@dataclass(frozen=True)
+class Resolved:
+    """What the rules established, so that nothing downstream derives it again."""
+
+    #: the model's parameters with every default filled in
+    parameters: dict[str, Any]
+    #: the particles of an event in record order: the production's (incoming, outgoing), then decay products
+    names: tuple[str, ...]
+    #: nominal masses (GeV) of those particles
+    masses: tuple[float, ...]
+    #: fixed beams and decays at rest: the spec and the card's order in it
+    ordering: Ordering | None = None
+    #: hadron beams: every parton-level subprocess
+    subprocesses: tuple[Subprocess, ...] = ()
+    #: fixed beams: laboratory four-momenta (GeV) of the two beams; hadron beams: of the two hadrons
+    beams: tuple[tuple[float, ...], tuple[float, ...]] | None = None
+    #: the card key that sets the beam energies (for messages)
+    beam_key: str = ""
+    #: hadron beams, 2 -> 2: the range of s-hat (GeV^2) the masses and cuts allow
+    shat_range: tuple[float, float] | None = None
+    #: hadron beams: the parton-density set's checked metadata
+    parton_set: _pdf.SetHeader | None = None
+    decays: tuple[DecayStep, ...] = ()
+
+    @property
+    def n_production(self) -> int:
+        return len(self.names) - 2 * len(self.decays)
+
+    @property
+    def branching_ratio(self) -> float:
+        return math.prod(st.branching_ratio for st in self.decays)
+
 
 @dataclass(frozen=True)
 class RunConfig:
@@ -109,19 +184,32 @@ class RunConfig:
     source: str
     text: str
     model: str
-    incoming: tuple[Species, Species]
+    incoming: tuple[Species, ...]
     outgoing: tuple[Species, ...]
     collider: dict[str, Any]
-    parameters: dict[str, Any]
-    masses: dict[int, float]  # by |PDG id|: a particle and its antiparticle
-    widths: dict[int, float]
+    parameters: dict[str, Any]  # as the card gives them
+    masses: dict[int, float]  # [parameters.masses] by |PDG id|: a particle and its antiparticle
+    widths: dict[int, float]  # [parameters.widths] by |PDG id|
     cuts: dict[str, Any]
     partons: dict[str, Any]
     scales: dict[str, Any]
-    decays: dict[str, Any]
+    decays: dict[str, dict[str, Any]]  # [decays.<particle>] as the card gives them
     integration: dict[str, Any]
     sampling: dict[str, Any]
     output: dict[str, Any]
+    resolved: Resolved = field(repr=False, compare=False, default=None)
+
+    @property
+    def at_rest(self) -> bool:
+        return len(self.incoming) == 1
+
+    @property
+    def hadron_beams(self) -> bool:
+        return self.incoming[0].is_hadron
+
+    @property
+    def label(self) -> str:
+        return f"{' '.join(p.name for p in self.incoming)} -> {' '.join(p.name for p in self.outgoing)}"
 
     def with_overrides(self, *, events: int | None = None, seed: int | None = None,
                        folder: str | None = None) -> "RunConfig":
@@ -129,192 +217,588 @@ class RunConfig:
         sampling = dict(self.sampling)
         output = dict(self.output)
         if events is not None:
-            _check_value(self.source, "sampling.events", events, SPEC["sampling"]["events"])
-            sampling["events"] = events
+            sampling["events"] = SPEC["sampling"]["events"].check(self.source, "sampling.events (--events)", events)
         if seed is not None:
-            _check_value(self.source, "sampling.seed", seed, SPEC["sampling"]["seed"])
-            sampling["seed"] = seed
+            sampling["seed"] = SPEC["sampling"]["seed"].check(self.source, "sampling.seed (--seed)", seed)
         if folder is not None:
             output["folder"] = folder
-        return RunConfig(**{**self.__dict__, "sampling": sampling, "output": output})
+        _something_to_write(self.source, sampling)
+        return replace(self, sampling=sampling, output=output)
 
 
-def _type_name(kind) -> str:
-    kinds = kind if isinstance(kind, tuple) else (kind,)
-    names = {int: "an integer", float: "a number", str: "a string", list: "an array", dict: "a table", bool: "true/false"}
-    if set(kinds) == {int, float}:
-        return "a number"
-    return " or ".join(names.get(k, k.__name__) for k in kinds)
+# --- rules --------------------------------------------------------------------------------------
+
+class _Draft:
+    """The card while the rules run: sections as validated so far and what the rules resolve."""
+
+    def __init__(self, source: str, text: str, doc: dict):
+        self.source, self.text, self.doc = source, text, doc
+        self.sections: dict[str, dict[str, Any]] = {}
+        self.model = None
+        self.incoming: tuple[Species, ...] = ()
+        self.outgoing: tuple[Species, ...] = ()
+        self.given: dict[str, Any] = {}
+        self.mass_overrides: dict[int, float] = {}
+        self.width_overrides: dict[int, float] = {}
+        self.mass_keys: dict[int, str] = {}
+        self.width_keys: dict[int, str] = {}
+        self.decays: dict[str, dict[str, Any]] = {}
+        self.params: dict[str, Any] = {}
+        self.ordering: Ordering | None = None
+        self.subprocesses: tuple[Subprocess, ...] = ()
+        self.masses: list[float] = []
+        self.names: list[str] = []
+        self.beams = None
+        self.beam_key = ""
+        self.shat_range = None
+        self.parton_set = None
+        self.steps: list[DecayStep] = []
+
+    def error(self, key: str, message: str) -> CardError:
+        return CardError(self.source, key, message)
+
+    @property
+    def at_rest(self) -> bool:
+        return len(self.incoming) == 1
+
+    @property
+    def hadrons(self) -> bool:
+        return bool(self.incoming) and self.incoming[0].is_hadron
+
+    @property
+    def label(self) -> str:
+        return f"{' '.join(p.name for p in self.incoming)} -> {' '.join(p.name for p in self.outgoing)}"
 
 
-def _check_value(source: str, path: str, value: Any, key: Key) -> Any:
-    kinds = key.kind if isinstance(key.kind, tuple) else (key.kind,)
-    if isinstance(value, bool) or not isinstance(value, kinds):
-        raise CardError(source, path, f"expected {_type_name(key.kind)}, found {value!r} ({type(value).__name__})")
-    if key.choices and value not in key.choices:
-        raise CardError(source, path, f"{value!r} is not one of {', '.join(map(repr, key.choices))}"
-                        + close_matches(str(value), key.choices))
-    if isinstance(value, (int, float)):
-        if isinstance(value, float) and math.isnan(value):
-            raise CardError(source, path, "found nan; expected a number")
-        if key.lo is not None and value < key.lo:
-            raise CardError(source, path, f"{value!r} is below the smallest accepted value {key.lo:g}{(' ' + key.unit) if key.unit else ''}")
-        if key.hi is not None and value > key.hi:
-            raise CardError(source, path, f"{value!r} is above the largest accepted value {key.hi:g}{(' ' + key.unit) if key.unit else ''}")
-    return value
+@dataclass(frozen=True)
+class Rule:
+    """A rule relating keys to each other or to the physics; `doc` goes into the card reference."""
+
+    doc: str
+    check: Callable[[_Draft], None]
 
 
-def _section(source: str, doc: dict, name: str) -> dict[str, Any]:
-    raw = doc.get(name, {})
+RULES: list[Rule] = []
+
+
+def _rule(doc: str):
+    def register(fn):
+        RULES.append(Rule(" ".join(doc.split()), fn))
+        return fn
+
+    return register
+
+
+@_rule("process.incoming holds two particles, two hadrons (p, pbar), or one particle that decays at rest; "
+       "process.outgoing two or three particles, or one or two particles or groups with hadron beams.")
+def _particles(d: _Draft) -> None:
+    proc = d.sections["process"]
+    d.model = MODELS[proc["model"]]
+    if not 1 <= len(proc["incoming"]) <= 2:
+        raise d.error("process.incoming", f"expected one or two particles, found {len(proc['incoming'])}")
+    d.incoming = tuple(lookup(tok, d.source, f"process.incoming[{i}]") for i, tok in enumerate(proc["incoming"]))
+    d.outgoing = tuple(lookup(tok, d.source, f"process.outgoing[{i}]") for i, tok in enumerate(proc["outgoing"]))
+    hadrons = [p.is_hadron for p in d.incoming]
+    if d.at_rest and any(hadrons):
+        raise d.error("process.incoming", "a hadron does not decay in gen; give two hadron beams")
+    if any(hadrons) and not all(hadrons):
+        raise d.error("process.incoming", "give two hadrons (p, pbar) or two particles; lepton-hadron collisions are "
+                      "not supported")
+    if d.hadrons:
+        if not 1 <= len(d.outgoing) <= 2:
+            raise d.error("process.outgoing", f"with hadron beams expected 1 or 2 particles, found {len(d.outgoing)}")
+        return
+    for i, p in enumerate(d.incoming + d.outgoing):
+        if p.is_group:
+            where = f"process.incoming[{i}]" if i < len(d.incoming) else f"process.outgoing[{i - len(d.incoming)}]"
+            raise d.error(where, f"the group {p.name!r} needs hadron beams (p, pbar); name the particles")
+    if len(d.outgoing) not in (2, 3):
+        raise d.error("process.outgoing", f"expected 2 or 3 particles, found {len(d.outgoing)}")
+
+
+@_rule("[collider] gives exactly one of sqrt_s, beam_energies (two positive energies) and beam_energy (fixed "
+       "target, not for hadron beams); a particle decaying at rest has no [collider].")
+def _collider(d: _Draft) -> None:
+    col = d.sections["collider"]
+    given = [k for k in SPEC["collider"] if k in col]
+    if d.at_rest:
+        if given:
+            raise d.error(f"collider.{given[0]}", "one incoming particle decays at rest; leave out [collider]")
+        return
+    if len(given) != 1:
+        raise d.error("collider", "give exactly one of sqrt_s, beam_energies, beam_energy; found "
+                      + (", ".join(given) if given else "none"))
+    d.beam_key = f"collider.{given[0]}"
+    if "beam_energies" in col:
+        be = col["beam_energies"]
+        energy = Key(NUMBER, lo=0.0, lo_open=True, hi=1e9, unit="GeV")
+        if len(be) != 2:
+            raise d.error("collider.beam_energies", f"expected two positive energies in GeV, found {be!r}")
+        for i, e in enumerate(be):
+            energy.check(d.source, f"collider.beam_energies[{i}]", e)
+    if "beam_energy" in col and d.hadrons:
+        raise d.error("collider.beam_energy", "hadron beams collide head-on: give sqrt_s or beam_energies")
+
+
+@_rule("[partons] and [scales] apply to hadron beams only.")
+def _hadron_sections(d: _Draft) -> None:
+    if not d.hadrons:
+        for sec in ("partons", "scales"):
+            if sec in d.doc:
+                raise d.error(sec, f"[{sec}] applies to hadron beams (p, pbar) only")
+
+
+def _other_models(d: _Draft, has) -> str:
+    others = [name for name, model in MODELS.items() if name != d.model.name and has(model)]
+    if not others:
+        return ""
+    return f"; the {' and the '.join(repr(o) for o in others)} model{'s have' if len(others) > 1 else ' has'} it " \
+           f"(set process.model = {others[0]!r})"
+
+
+@_rule("The model has the process: at fixed beams in any order of the particles; with hadron beams at least one "
+       "parton-level subprocess that the beams' partons start and the outgoing particles or groups fill.")
+def _process_in_model(d: _Draft) -> None:
+    names_in = tuple(p.name for p in d.incoming)
+    names_out = tuple(p.name for p in d.outgoing)
+    if d.hadrons:
+        subs = find_subprocesses(d.model, names_in, d.outgoing)
+        if not subs:
+            hint = _other_models(d, lambda m: bool(find_subprocesses(m, names_in, d.outgoing)))
+            partonic = sorted({s.label for s in d.model.processes if len(s.outgoing) == len(d.outgoing)
+                               and all(p in HADRON_PARTONS["p"] for p in s.incoming)})
+            hint += (f"; {d.model.name} has parton processes such as " + "; ".join(partonic[:8])
+                     + (" ..." if len(partonic) > 8 else "") + " (`gen processes` lists them all)") if partonic \
+                else f"; {d.model.name} has no parton processes with {len(d.outgoing)} outgoing particles"
+            raise d.error("process", f"model {d.model.name!r} has no parton process for {d.label}" + hint)
+        d.subprocesses = tuple(subs)
+        return
+    found = find_process(d.model, names_in, names_out)
+    if found is None:
+        hint = _other_models(d, lambda m: find_process(m, names_in, names_out) is not None)
+        listed = [s.label for s in d.model.processes if (len(s.incoming) == 1) == d.at_rest
+                  and not all(p in HADRON_PARTONS["p"] for p in s.incoming)]
+        hint += f"; {d.model.name} has: " + "; ".join(listed) if listed else f"; {d.model.name} has no such processes"
+        raise d.error("process", f"model {d.model.name!r} has no process {d.label}" + hint)
+    d.ordering = found
+
+
+@_rule("[parameters] holds the chosen model's parameters (each with the effect its description states; a "
+       "parameter the model's other choices leave unused is refused), and the tables masses and widths of "
+       "particle = value in GeV; alpha_s runs in hadron collisions and is set under [partons] instead.")
+def _parameters(d: _Draft) -> None:
+    raw = d.doc.get("parameters", {})
     if not isinstance(raw, dict):
-        raise CardError(source, name, f"expected a table [{name}], found {raw!r}")
-    spec = SPEC[name]
+        raise d.error("parameters", f"expected a table [parameters], found {raw!r}")
+    model = d.model
+    accepted = list(model.params) + ["masses", "widths"]
+    for k, v in raw.items():
+        if k in ("masses", "widths"):
+            if not isinstance(v, dict):
+                raise d.error(f"parameters.{k}", f"expected a table of particle = value in GeV, found {v!r}")
+            target, keys = (d.mass_overrides, d.mass_keys) if k == "masses" else (d.width_overrides, d.width_keys)
+            for name, val in v.items():
+                path = f"parameters.{k}.{name}"
+                sp = lookup(name, d.source, path)
+                if sp.is_group:
+                    raise d.error(path, f"{sp.name!r} is a group; give the {k} of particles")
+                target[abs(sp.pdg)] = float(PARTICLE_VALUE.check(d.source, path, val))
+                keys[abs(sp.pdg)] = path
+            continue
+        if k not in model.params:
+            elsewhere = [m for m, mod in MODELS.items() if k in mod.params]
+            where = f"; it is a parameter of the {' and '.join(repr(m) for m in elsewhere)} model" if elsewhere else ""
+            raise d.error(f"parameters.{k}", f"unknown parameter of model {model.name!r}" + close_matches(k, accepted)
+                          + where + "; accepted: " + ", ".join(accepted))
+        d.given[k] = model.params[k].check(d.source, f"parameters.{k}", v)
+    for k, why in model.inapplicable(d.given).items():
+        raise d.error(f"parameters.{k}", f"has no effect here: {why}")
+    if d.hadrons and "alpha_s" in d.given:
+        raise d.error("parameters.alpha_s", "alpha_s runs with the scale in hadron collisions; set partons.alpha_s "
+                      "(set, one_loop, two_loop) and partons.alpha_s_mz instead")
+    for which, governed, given, keys in (("mass", model.mass_params, d.mass_overrides, d.mass_keys),
+                                         ("width", model.width_params, d.width_overrides, d.width_keys)):
+        for name, param in governed.items():
+            pdg = abs(species(name).pdg)
+            if pdg in given:
+                raise d.error(keys[pdg], f"the {model.name} model sets this {which} from its parameters; set "
+                              f"parameters.{param} instead")
+    d.params = dict(model.resolve(d.given))
+    if d.hadrons:
+        d.params.pop("alpha_s", None)
+
+
+@_rule("cuts.particles names outgoing particles of the process (at least one); each minimum is below its maximum.")
+def _cut_keys(d: _Draft) -> None:
+    cuts = d.sections["cuts"]
+    if "particles" in cuts:
+        chosen = cuts["particles"]
+        if not chosen:
+            raise d.error("cuts.particles", "is empty, which would drop every cut; leave the key out to cut on every "
+                          "outgoing particle")
+        names = [lookup(tok, d.source, f"cuts.particles[{i}]").name for i, tok in enumerate(chosen)]
+        outgoing = [p.name for p in d.outgoing]
+        for i, name in enumerate(names):
+            if name not in outgoing:
+                raise d.error(f"cuts.particles[{i}]", f"{name!r} is not an outgoing particle of the process; "
+                              "outgoing: " + ", ".join(outgoing))
+        cuts["particles"] = names
+    for lo, hi in (("theta_min_deg", "theta_max_deg"), ("energy_min", "energy_max"),
+                   ("pt_min", "pt_max"), ("mass_min", "mass_max")):
+        if cuts[lo] >= cuts[hi]:
+            raise d.error(f"cuts.{lo}", f"{cuts[lo]!r} is not below cuts.{hi} = {cuts[hi]!r}")
+
+
+@_rule("partons.set names a set that exists (in LHAPDF_DATA_PATH, among the shipped sets, or as a folder) with a "
+       "readable .info file, and partons.member is one of its members.")
+def _parton_set(d: _Draft) -> None:
+    if not d.hadrons:
+        return
+    part = d.sections["partons"]
+    try:
+        d.parton_set = _pdf.read_header(_pdf.find_set(part["set"]))
+    except _pdf.PdfError as exc:
+        raise d.error("partons.set", str(exc)) from None
+    if part["member"] >= d.parton_set.members:
+        raise d.error("partons.member", f"{part['member']} does not exist; the set {d.parton_set.name!r} has members "
+                      f"0..{d.parton_set.members - 1}")
+
+
+@_rule("scales.renormalization and scales.factorization are one of auto, sqrt_shat, half_ht, pt, or a fixed "
+       "scale in GeV inside the parton set's Q range.")
+def _scales(d: _Draft) -> None:
+    sc = d.sections["scales"]
+    for k in ("renormalization", "factorization"):
+        v, path = sc[k], f"scales.{k}"
+        if isinstance(v, str):
+            if v not in SCALE_CHOICES:
+                raise d.error(path, f"{v!r} is not one of {', '.join(map(repr, SCALE_CHOICES))} or a number in GeV"
+                              + close_matches(v, SCALE_CHOICES))
+            continue
+        lo, hi = d.parton_set.q_range if d.parton_set else (1.0, 1e5)
+        Key(NUMBER, lo=lo, hi=hi, unit="GeV").check(d.source, path, v)
+
+
+def _mass(d: _Draft, name: str) -> float:
+    """A particle's mass: set by the model's parameters, else by [parameters.masses], else PDG."""
+    sp = species(name)
+    for gov, m in d.model.masses(d.params).items():
+        if abs(species(gov).pdg) == abs(sp.pdg):
+            return float(m)
+    return float(d.mass_overrides.get(abs(sp.pdg), sp.mass))
+
+
+@_rule("The beams carry at least the incoming particles' masses and sqrt(s) exceeds the outgoing masses; with "
+       "hadron beams a resonance made alone lies below sqrt(s), every slot of a group holds particles of one mass, "
+       "massless exchange (jets, photons) needs cuts.pt_min, a massless s-channel propagator (the photon of "
+       "Drell-Yan, the gluon of q qbar -> q' qbar') needs cuts.mass_min or cuts.pt_min, and the cuts leave a range "
+       "of pair masses; without a mass cut, pair masses start at the parton set's lowest scale.")
+def _kinematics(d: _Draft) -> None:
+    if d.hadrons:
+        _hadron_kinematics(d)
+        return
+    d.names = [p.name for p in d.incoming + d.outgoing]
+    d.masses = [_mass(d, n) for n in d.names]
+    if d.at_rest:
+        if d.masses[0] <= sum(d.masses[1:]):
+            raise d.error("process.outgoing", f"{' '.join(p.name for p in d.outgoing)} is heavier than "
+                          f"{d.incoming[0].name} ({d.masses[0]:g} GeV)")
+        return
+    m1, m2 = d.masses[0], d.masses[1]
+    col, key = d.sections["collider"], d.beam_key
+
+    def along(e, m, sign):
+        if e < m:
+            raise d.error(key, f"beam energy {e:g} GeV is below the particle mass {m:g} GeV")
+        return (float(e), 0.0, 0.0, sign * math.sqrt(max(e * e - m * m, 0.0)))
+
+    if "sqrt_s" in col:
+        rs = float(col["sqrt_s"])
+        e1 = (rs * rs + m1 * m1 - m2 * m2) / (2.0 * rs)
+        if rs <= m1 + m2:
+            raise d.error(key, f"{rs:g} GeV is below the incoming masses {m1:g} + {m2:g} GeV")
+        beams = (along(e1, m1, 1), along(rs - e1, m2, -1))
+    elif "beam_energies" in col:
+        e1, e2 = map(float, col["beam_energies"])
+        beams = (along(e1, m1, 1), along(e2, m2, -1))
+    else:
+        beams = (along(float(col["beam_energy"]), m1, 1), (m2, 0.0, 0.0, 0.0))
+    total = [a + b for a, b in zip(*beams)]
+    sqrt_s = math.sqrt(max(total[0] ** 2 - total[1] ** 2 - total[2] ** 2 - total[3] ** 2, 0.0))
+    threshold = sum(d.masses[2:])
+    if sqrt_s <= threshold:
+        raise d.error(key, f"sqrt(s) = {sqrt_s:.6g} GeV is below the threshold {threshold:.6g} GeV of "
+                      f"{' '.join(p.name for p in d.outgoing)}")
+    d.beams = beams
+    spec = d.ordering.spec
+    if spec.needs_angular_cut and len(d.outgoing) > 2 and d.sections["cuts"]["pair_mass_min"] <= 0.0:
+        raise d.error("cuts.pair_mass_min", f"{spec.label} has soft and collinear singularities; keep every pair of "
+                      f"partons apart in invariant mass, for example pair_mass_min = {0.1 * sqrt_s:.4g} "
+                      "(0.1 sqrt(s), a y cut of 0.01)")
+
+
+def _hadron_kinematics(d: _Draft) -> None:
+    col, cuts = d.sections["collider"], d.sections["cuts"]
+    e1, e2 = (0.5 * float(col["sqrt_s"]),) * 2 if "sqrt_s" in col else map(float, col["beam_energies"])
+    d.beams = ((e1, 0.0, 0.0, e1), (e2, 0.0, 0.0, -e2))
+    s = 4.0 * e1 * e2
+    sqrt_s = math.sqrt(s)
+    slot_masses = []
+    for k, slot in enumerate(d.outgoing):
+        ms = {_mass(d, sub.outgoing[k]) if sub.outgoing[k] in MASSIVE_IN_HADRON_COLLISIONS else 0.0
+              for sub in d.subprocesses}
+        if len(ms) > 1:
+            raise d.error("process.outgoing", f"the slot {slot.name!r} holds particles of different masses "
+                          f"({', '.join(f'{m:g}' for m in sorted(ms))} GeV); name them in separate cards")
+        slot_masses.append(ms.pop())
+    d.names = [p.name for p in d.incoming + d.outgoing]
+    d.masses = [0.0, 0.0] + slot_masses
+    specs = [sub.spec for sub in d.subprocesses]
+    if len(d.outgoing) == 1:
+        m_res = float(d.params[specs[0].resonance[0]])
+        if m_res >= sqrt_s:
+            raise d.error(d.beam_key, f"sqrt(s) = {sqrt_s:g} GeV is below the mass {m_res:g} GeV")
+        return
+    m3, m4 = slot_masses
+    pt_min = float(cuts["pt_min"])
+    shat_min = (m3 + m4) ** 2
+    if pt_min > 0:
+        shat_min = max(shat_min, (math.hypot(m3, pt_min) + math.hypot(m4, pt_min)) ** 2)
+    shat_max = s
+    selected = cuts.get("particles", [p.name for p in d.outgoing])
+    if len(selected) == len(d.outgoing):
+        shat_min = max(shat_min, cuts["mass_min"] ** 2)
+        shat_max = min(shat_max, cuts["mass_max"] ** 2)
+    needs_pt = [sp for sp in specs if sp.needs_angular_cut]
+    if needs_pt and pt_min <= 0.0:
+        raise d.error("cuts.pt_min", f"{needs_pt[0].label} has poles where the outgoing particles go along the beams "
+                      "(massless exchange); give cuts.pt_min (for example 20 GeV)")
+    s_pole = [sp for sp in specs if sp.massless_s_pole]
+    if s_pole and shat_min <= 0.0:
+        raise d.error("cuts.mass_min", f"{s_pole[0].label} goes through a massless s-channel propagator, whose 1/s-hat "
+                      "pole makes the cross-section grow without bound at small pair masses; give cuts.mass_min "
+                      "(for example 10 GeV) or cuts.pt_min")
+    if shat_min <= 0.0:
+        if any(sp.resonance is None for sp in specs):
+            raise d.error("cuts.mass_min", "massless particles need a lower bound on their invariant mass or "
+                          "transverse momentum (cuts.mass_min or cuts.pt_min)")
+        q_low = d.parton_set.q_range[0] if d.parton_set else 1.0
+        shat_min = q_low**2  # a resonance alone: from the lowest scale of the parton densities
+    if shat_min >= shat_max:
+        raise d.error("cuts", f"the cuts leave no room: s-hat from {shat_min:g} to {shat_max:g} GeV^2 at "
+                      f"sqrt(s) = {sqrt_s:g} GeV")
+    d.shat_range = (shat_min, shat_max)
+
+
+@_rule("[decays.<particle>] decays a particle the process makes (or a decay product makes) into two particles "
+       "that conserve charge, lepton number of each generation and quark number, with colour lines gen can draw "
+       "(a colour singlet into two singlets or a quark pair, a quark into a quark and a singlet); the products are "
+       "lighter than the parent; the branching ratio comes from the card or from gen's width tables.")
+def _decays(d: _Draft) -> None:
+    raw = d.doc.get("decays")
+    if raw is None:
+        return
+    if not isinstance(raw, dict):
+        raise d.error("decays", f"expected tables [decays.<particle>], found {raw!r}")
+    by_parent: dict[str, dict[str, Any]] = {}
+    for name, table in raw.items():
+        key = f"decays.{name}"
+        parent = lookup(name, d.source, key)
+        if parent.is_group or parent.is_hadron:
+            raise d.error(key, f"{parent.name!r} is not a particle gen decays; name a particle")
+        if not isinstance(table, dict):
+            raise d.error(key, f"expected a table with into = [two particles], found {table!r}")
+        checked = _keys_of(d, key, table, DECAY_KEYS)
+        into = checked["into"]
+        if len(into) != 2:
+            raise d.error(f"{key}.into", f"expected two decay products, found {into!r}")
+        products = tuple(lookup(p, d.source, f"{key}.into[{i}]") for i, p in enumerate(into))
+        _conservation(d, key, parent, products)
+        checked["into"] = [p.name for p in products]
+        by_parent[parent.name] = checked
+    d.decays = by_parent
+    ew = _electroweak_for_decays(d)
+    queue = list(range(len(d.incoming), len(d.names)))
+    used = set()
+    while queue:
+        i = queue.pop(0)
+        table = by_parent.get(d.names[i])
+        if table is None:
+            continue
+        parent = d.names[i]
+        used.add(parent)
+        m = d.masses[i]
+        kids = []
+        for prod in table["into"]:
+            d.names.append(prod)
+            d.masses.append(_decay_mass(d, prod, ew))
+            kids.append(len(d.names) - 1)
+        if d.masses[kids[0]] + d.masses[kids[1]] >= m:
+            raise d.error(f"decays.{parent}.into", f"{' '.join(table['into'])} is heavier than {parent} ({m:g} GeV); "
+                          "decays into off-shell particles are not supported")
+        br, source = table.get("branching_ratio"), "card"
+        if br is None:
+            br, channels = _widths.branching_ratio(parent, tuple(table["into"]), dict(ew, m_t=_decay_mass(d, "t", ew)))
+            source = "tree-level partial widths"
+            if br is None and not channels:
+                raise d.error(f"decays.{parent}.branching_ratio", f"gen has no width table for {parent}; give the "
+                              "branching ratio")
+            if br is None:
+                raise d.error(f"decays.{parent}.into", f"{parent} -> {' '.join(table['into'])} is not in gen's width "
+                              f"table ({', '.join(channels)}); give decays.{parent}.branching_ratio to use it anyway")
+        d.steps.append(DecayStep(i, (kids[0], kids[1]), parent, tuple(table["into"]), m, _decay_width(d, parent, ew),
+                                 float(br), source, float(table["window"])))
+        queue.extend(kids)
+    for name in by_parent:
+        if name not in used:
+            made = ", ".join(d.names[len(d.incoming):len(d.incoming) + len(d.outgoing)])
+            raise d.error(f"decays.{name}", f"the process makes no {name}; particles: {made}")
+
+
+def _conservation(d: _Draft, key: str, parent: Species, products: tuple[Species, ...]) -> None:
+    names = " ".join(p.name for p in products)
+    if abs(sum(p.charge for p in products) - parent.charge) > 1e-9:
+        raise d.error(f"{key}.into", f"{names} does not carry the charge of {parent.name}")
+    if tuple(map(sum, zip(*(p.lepton_numbers for p in products)))) != parent.lepton_numbers:
+        raise d.error(f"{key}.into", f"{parent.name} -> {names} does not conserve the lepton number of each "
+                      "generation (e, mu, tau)")
+    if sum(p.quark_number for p in products) != parent.quark_number:
+        raise d.error(f"{key}.into", f"{parent.name} -> {names} does not conserve quark number")
+    reps = sorted(abs(p.colour) for p in products)
+    drawable = reps in ([1, 1], [3, 3]) if parent.colour == 1 else (abs(parent.colour) == 3 and reps == [1, 3])
+    if not drawable:
+        raise d.error(f"{key}.into", f"gen draws colour lines for a colour singlet into two singlets or a quark pair, "
+                      f"and for a quark into a quark and a singlet; {parent.name} -> {names} is neither")
+
+
+def _electroweak_for_decays(d: _Draft) -> dict[str, Any]:
+    """Electroweak parameters for the masses, widths and branching ratios of decays: the card's when
+    its model is the electroweak one, else the defaults with the card's mass overrides."""
+    ew_model = MODELS["electroweak"]
+    if d.model is ew_model:
+        return dict(d.params)
+    given = {}
+    for name, par in (("Z", "m_Z"), ("H", "m_H"), ("W+", "m_W")):
+        pdg = abs(species(name).pdg)
+        if pdg in d.mass_overrides:
+            given[par] = d.mass_overrides[pdg]
+    return dict(ew_model.resolve(given))
+
+
+def _decay_mass(d: _Draft, name: str, ew: dict) -> float:
+    sp = species(name)
+    for gov, m in MODELS["electroweak"].masses(ew).items():
+        if abs(species(gov).pdg) == abs(sp.pdg):
+            return float(m)
+    return _mass(d, name)
+
+
+def _decay_width(d: _Draft, name: str, ew: dict) -> float:
+    """[parameters.widths], else the electroweak parameters (Z, W, H), else PDG."""
+    sp = species(name)
+    if abs(sp.pdg) in d.width_overrides:
+        return d.width_overrides[abs(sp.pdg)]
+    for gov, w in MODELS["electroweak"].widths(ew).items():
+        if abs(species(gov).pdg) == abs(sp.pdg):
+            return float(w)
+    return float(sp.width)
+
+
+@_rule("Every entry of [parameters.masses] and [parameters.widths] has an effect: a mass belongs to a particle of "
+       "the process or its decays whose mass the process uses (partons and leptons are massless in hadron "
+       "collisions), a width to a particle the card decays.")
+def _overrides_have_an_effect(d: _Draft) -> None:
+    n_production = len(d.incoming) + len(d.outgoing)
+    production = [n for n in d.names[:n_production] if not species(n).is_group]
+    if d.hadrons:  # partons, leptons and photons are massless in hadron collisions
+        production = [n for n in production if n in MASSIVE_IN_HADRON_COLLISIONS]
+    used = {abs(species(n).pdg) for n in production + d.names[n_production:]}
+    for pdg, path in d.mass_keys.items():
+        if pdg not in used:
+            raise d.error(path, "no particle of this process or its decays uses this mass"
+                          + ("; partons, leptons and photons are massless in hadron collisions" if d.hadrons else ""))
+    decayed = {abs(species(st.particle).pdg) for st in d.steps}
+    for pdg, path in d.width_keys.items():
+        if pdg not in decayed:
+            raise d.error(path, "a width here sets the Breit-Wigner masses of a decay, and the card does not decay "
+                          "this particle; add a [decays.<particle>] table or leave the width out")
+
+
+@_rule("The card writes something: sampling.events and sampling.weighted_events are not both 0.")
+def _writes_something(d: _Draft) -> None:
+    _something_to_write(d.source, d.sections["sampling"])
+
+
+def _something_to_write(source: str, sampling: dict) -> None:
+    if sampling["events"] == 0 and sampling["weighted_events"] == 0:
+        raise CardError(source, "sampling.events", "sampling.events and sampling.weighted_events are both 0: the run "
+                        "would write nothing; ask for unweighted or weighted events")
+
+
+# --- the pass --------------------------------------------------------------------------------------
+
+def _section_of(key: str) -> str | None:
+    for sec, keys in SPEC.items():
+        if key in keys:
+            return sec
+    return None
+
+
+def _keys_of(d: _Draft, path: str, raw: dict, spec: dict[str, Key]) -> dict[str, Any]:
+    """A table's keys checked against their descriptions, with defaults filled in."""
     out: dict[str, Any] = {}
     for k, v in raw.items():
         if k not in spec:
-            raise CardError(source, f"{name}.{k}", "unknown key" + close_matches(k, spec)
-                            + "; accepted keys: " + ", ".join(spec))
-        out[k] = _check_value(source, f"{name}.{k}", v, spec[k])
+            home = _section_of(k)
+            where = f"; {k} belongs in [{home}]" if home and home != path else ""
+            raise d.error(f"{path}.{k}", "unknown key" + close_matches(k, spec) + where + "; accepted keys: "
+                          + ", ".join(spec))
+        out[k] = spec[k].check(d.source, f"{path}.{k}", v)
     for k, key in spec.items():
         if k not in out:
             if key.required:
-                raise CardError(source, f"{name}.{k}", f"missing; required ({key.doc})")
+                raise d.error(f"{path}.{k}", f"missing; required ({key.doc})")
             if key.default is not None:
                 out[k] = key.default
     return out
 
 
-def _particles(source: str, path: str, value: list, n: int | None) -> tuple[Species, ...]:
-    if n is not None and len(value) != n:
-        raise CardError(source, path, f"expected {n} particles, found {len(value)}")
-    return tuple(lookup(tok, source, f"{path}[{i}]") for i, tok in enumerate(value))
-
-
-def _parameters(source: str, model_name: str, raw: Any):
-    if not isinstance(raw, dict):
-        raise CardError(source, "parameters", f"expected a table [parameters], found {raw!r}")
-    model = MODELS[model_name]
-    params: dict[str, Any] = {}
-    masses: dict[int, float] = {}
-    widths: dict[int, float] = {}
-    for k, v in raw.items():
-        if k in ("masses", "widths"):
-            if not isinstance(v, dict):
-                raise CardError(source, f"parameters.{k}", f"expected a table of particle = value in GeV, found {v!r}")
-            target = masses if k == "masses" else widths
-            for name, val in v.items():
-                sp = lookup(name, source, f"parameters.{k}.{name}")
-                _check_value(source, f"parameters.{k}.{name}", val, Key(_NUM, lo=0.0, unit="GeV"))
-                target[abs(sp.pdg)] = float(val)
-            continue
-        if k not in model.params:
-            raise CardError(source, f"parameters.{k}", f"unknown parameter of model {model_name!r}"
-                            + close_matches(k, list(model.params) + ["masses", "widths"])
-                            + "; accepted: " + ", ".join(list(model.params) + ["masses", "widths"]))
-        p = model.params[k]
-        kind = str if p.choices else _NUM
-        params[k] = _check_value(source, f"parameters.{k}", v, Key(kind, lo=p.lo, hi=p.hi, unit=p.unit, choices=p.choices))
-    return params, masses, widths
+def _toml(text: str, source: str) -> dict:
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise CardError(source, "", f"not valid TOML: {exc}") from None
+    except RecursionError:
+        raise CardError(source, "", "not a usable card: arrays or tables are nested too deeply") from None
 
 
 def parse_card(text: str, source: str = "<card>") -> RunConfig:
     """Validate card text (TOML) and return its RunConfig, or raise CardError."""
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise CardError(source, "", f"not valid TOML: {exc}") from None
-    sections = list(SPEC) + ["parameters", "decays"]
+    doc = _toml(text, source)
+    d = _Draft(source, text, doc)
     for k in doc:
-        if k not in sections:
-            raise CardError(source, k, "unknown section" + close_matches(k, sections)
-                            + "; accepted sections: " + ", ".join(sections))
-    proc = _section(source, doc, "process")
-    at_rest = isinstance(proc["incoming"], list) and len(proc["incoming"]) == 1
-    incoming = _particles(source, "process.incoming", proc["incoming"], 1 if at_rest else 2)
-    outgoing = _particles(source, "process.outgoing", proc["outgoing"], None)
-    model = MODELS[proc["model"]]
-    hadrons = [p.is_hadron for p in incoming]
-    if at_rest and any(hadrons):
-        raise CardError(source, "process.incoming", "a hadron does not decay in gen; give two hadron beams")
-    if any(hadrons) and not all(hadrons):
-        raise CardError(source, "process.incoming", "give two hadrons (p, pbar) or two particles; lepton-hadron "
-                        "collisions are not supported")
-    if all(hadrons):
-        _check_hadron_process(source, model, incoming, outgoing, doc)
-    else:
-        for p in incoming + outgoing:
-            if p.is_group:
-                raise CardError(source, "process.outgoing", f"the group {p.name!r} needs hadron beams; name the particles")
-        for sec in ("partons", "scales"):
-            if sec in doc:
-                raise CardError(source, sec, f"[{sec}] applies to hadron beams (p, pbar) only")
-        if len(outgoing) not in (2, 3):
-            raise CardError(source, "process.outgoing", f"expected 2 or 3 particles, found {len(outgoing)}")
-        found = find_process(model, tuple(p.name for p in incoming), tuple(p.name for p in outgoing))
-        if found is None:
-            listing = "; ".join(s.label for s in model.processes)
-            raise CardError(source, "process", f"model {model.name!r} has no process "
-                            f"{' '.join(p.name for p in incoming)} -> {' '.join(p.name for p in outgoing)}; "
-                            f"it has: {listing}")
-    collider = _section(source, doc, "collider")
-    given = [k for k in SPEC["collider"] if k in collider]
-    if at_rest and given:
-        raise CardError(source, f"collider.{given[0]}", "one incoming particle decays at rest; leave out [collider]")
-    if len(given) != 1 and not at_rest:
-        raise CardError(source, "collider", "give exactly one of sqrt_s, beam_energies, beam_energy; found "
-                        + (", ".join(given) if given else "none"))
-    if "beam_energies" in collider:
-        be = collider["beam_energies"]
-        if len(be) != 2 or any(isinstance(e, bool) or not isinstance(e, _NUM) or e <= 0 for e in be):
-            raise CardError(source, "collider.beam_energies", f"expected two positive energies in GeV, found {be!r}")
-    params, masses, widths = _parameters(source, model.name, doc.get("parameters", {}))
-    cuts = _section(source, doc, "cuts")
-    if "particles" in cuts:
-        names = [p.name for p in _particles(source, "cuts.particles", cuts["particles"], None)]
-        for i, name in enumerate(names):
-            if name not in [p.name for p in outgoing]:
-                raise CardError(source, f"cuts.particles[{i}]", f"{name!r} is not an outgoing particle of the process; "
-                                "outgoing: " + ", ".join(p.name for p in outgoing))
-        cuts["particles"] = names
-    for lo, hi in (("theta_min_deg", "theta_max_deg"), ("energy_min", "energy_max"),
-                   ("pt_min", "pt_max"), ("mass_min", "mass_max")):
-        if cuts[lo] >= cuts[hi]:
-            raise CardError(source, f"cuts.{lo}", f"{cuts[lo]!r} is not below cuts.{hi} = {cuts[hi]!r}")
+        if k not in SECTIONS:
+            home = _section_of(k)
+            where = f"; {k} is a key of [{home}]" if home else ""
+            raise d.error(k, "unknown section" + close_matches(k, SECTIONS) + where + "; accepted sections: "
+                          + ", ".join(SECTIONS))
+    for name, keys in SPEC.items():
+        raw = doc.get(name, {})
+        if not isinstance(raw, dict):
+            raise d.error(name, f"expected a table [{name}], found {raw!r}")
+        d.sections[name] = _keys_of(d, name, raw, keys)
+    for rule in RULES:
+        rule.check(d)
+    resolved = Resolved(
+        parameters=d.params, names=tuple(d.names), masses=tuple(d.masses), ordering=d.ordering,
+        subprocesses=d.subprocesses, beams=d.beams, beam_key=d.beam_key, shat_range=d.shat_range,
+        parton_set=d.parton_set, decays=tuple(d.steps))
+    sec = d.sections
     return RunConfig(
-        source=source, text=text, model=model.name, incoming=incoming, outgoing=outgoing,
-        collider=collider, parameters=params, masses=masses, widths=widths, cuts=cuts,
-        partons=_section(source, doc, "partons"), scales=_scales(source, _section(source, doc, "scales")),
-        decays=parse_decays(source, doc.get("decays")),
-        integration=_section(source, doc, "integration"), sampling=_section(source, doc, "sampling"),
-        output=_section(source, doc, "output"))
-
-
-SCALE_CHOICES = ("auto", "sqrt_shat", "half_ht", "pt")
-
-
-def _scales(source: str, sc: dict) -> dict:
-    for k in ("renormalization", "factorization"):
-        v = sc[k]
-        if isinstance(v, str) and v not in SCALE_CHOICES:
-            raise CardError(source, f"scales.{k}", f"{v!r} is not one of {', '.join(map(repr, SCALE_CHOICES))} "
-                            "or a number in GeV" + close_matches(v, SCALE_CHOICES))
-        if not isinstance(v, str) and not v > 0:
-            raise CardError(source, f"scales.{k}", f"a fixed scale must be positive, found {v!r} GeV")
-    return sc
-
-
-def _check_hadron_process(source, model, incoming, outgoing, doc) -> None:
-    if len(outgoing) not in (1, 2):
-        raise CardError(source, "process.outgoing", f"with hadron beams expected 1 or 2 particles, found {len(outgoing)}")
-    if "beam_energy" in doc.get("collider", {}):
-        raise CardError(source, "collider.beam_energy", "hadron beams collide head-on: give sqrt_s or beam_energies")
-    subs = find_subprocesses(model, tuple(p.name for p in incoming), tuple(outgoing))
-    if not subs:
-        partonic = sorted({s.label for s in model.processes if len(s.outgoing) == len(outgoing)
-                           and all(p in HADRON_PARTONS["p"] for p in s.incoming)})
-        raise CardError(source, "process", f"model {model.name!r} has no parton process for "
-                        f"{' '.join(p.name for p in incoming)} -> {' '.join(p.name for p in outgoing)}; its parton "
-                        "processes: " + "; ".join(partonic[:40]) + (" ..." if len(partonic) > 40 else ""))
+        source=source, text=text, model=d.model.name, incoming=d.incoming, outgoing=d.outgoing,
+        collider=sec["collider"], parameters=d.given, masses=d.mass_overrides, widths=d.width_overrides,
+        cuts=sec["cuts"], partons=sec["partons"], scales=sec["scales"], decays=d.decays,
+        integration=sec["integration"], sampling=sec["sampling"], output=sec["output"], resolved=resolved)
 
 
 def load_card(path: str | Path) -> RunConfig:
@@ -324,38 +808,41 @@ def load_card(path: str | Path) -> RunConfig:
         text = p.read_text(encoding="utf-8")
     except FileNotFoundError:
         raise CardError(str(p), "", "no such card file") from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise CardError(str(p), "", f"cannot read the card: {exc}") from None
+    except IsADirectoryError:
+        raise CardError(str(p), "", "is a folder, not a card file") from None
+    except UnicodeDecodeError as exc:
+        raise CardError(str(p), "", f"not UTF-8 text ({exc.reason} at byte {exc.start}); a card is TOML text") from None
+    except OSError as exc:
+        raise CardError(str(p), "", f"cannot read the card: {exc.strerror or exc}") from None
     return parse_card(text, str(p))
 
 
+# --- the reference ---------------------------------------------------------------------------------
+
 def reference_markdown() -> str:
-    """The card reference as a Markdown table, made from SPEC and the models' parameters."""
+    """The card reference as Markdown: every key (SPEC, the models' parameters, the particle tables
+    and the decay keys), then every rule."""
     lines = ["| key | type | default | range / choices | unit | meaning |", "|---|---|---|---|---|---|"]
+
+    def row(label: str, key: Key) -> None:
+        lines.append(f"| {label} | {type_name(key.kind)} | {key.default_text()} | {key.range_doc()} | {key.unit} | "
+                     f"{key.doc} |")
+
     for sec, keys in SPEC.items():
         for k, key in keys.items():
-            rng = ", ".join(key.choices) if key.choices else (
-                "" if key.lo is None and key.hi is None else f"{_fmt(key.lo)} .. {_fmt(key.hi)}")
-            default = "required" if key.required else ("" if key.default is None else _fmt(key.default))
-            lines.append(f"| `{sec}.{k}` | {_type_name(key.kind)} | {default} | {rng} | {key.unit} | {key.doc} |")
+            row(f"`{sec}.{k}`", key)
     for name, model in MODELS.items():
-        for k, p in model.params.items():
-            rng = ", ".join(p.choices) if p.choices else f"{_fmt(p.lo)} .. {_fmt(p.hi)}"
-            default = "PDG" if p.default is None else _fmt(p.default)
-            lines.append(f"| `parameters.{k}` ({name}) | {'a string' if p.choices else 'a number'} | {default} | {rng} | {p.unit} | {p.doc} |")
-    lines.append("| `parameters.masses.<particle>` | a number | PDG | 0 .. | GeV | mass of a particle and its antiparticle |")
-    lines.append("| `parameters.widths.<particle>` | a number | PDG | 0 .. | GeV | width of a particle and its antiparticle |")
-    lines.append("| `decays.<particle>.into` | an array | | two particles | | the decay of a particle the process makes (or a decay product makes) |")
-    lines.append("| `decays.<particle>.branching_ratio` | a number | tree-level partial widths | 0 .. 1 | | its branching ratio |")
-    lines.append("| `decays.<particle>.window` | a number | 10 | 0 .. | widths | half-width of the Breit-Wigner mass window, in widths |")
+        for k, key in model.params.items():
+            row(f"`parameters.{k}` ({name})", key)
+    row("`parameters.masses.<particle>`", replace(PARTICLE_VALUE, doc="mass of a particle and its antiparticle"))
+    row("`parameters.widths.<particle>`", replace(PARTICLE_VALUE, doc="width of a particle and its antiparticle (for "
+                                                  "the Breit-Wigner masses of its decays)"))
+    for k, key in DECAY_KEYS.items():
+        row(f"`decays.<particle>.{k}`", key)
+    lines += ["", f"Card format {CARD_SCHEMA_VERSION}. Rules checked after the keys, in this order:", ""]
+    lines += [f"{i}. {r.doc}" for i, r in enumerate(RULES, 1)]
     return "\n".join(lines) + "\n"
 
 
-def _fmt(v) -> str:
-    if v is None:
-        return ""
-    if isinstance(v, float) and math.isinf(v):
-        return "inf"
-    if isinstance(v, float):
-        return f"{v:g}"
-    return str(v)
+# the cuts' defaults, for code that asks whether a cut is active
+CUT_DEFAULTS = {k: key.default for k, key in SPEC["cuts"].items()}

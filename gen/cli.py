@@ -1,35 +1,38 @@
 """The `gen` command: run, adapt, merge, info, validate, plot, processes.
 
-User errors print one line `gen: error: ...` on stderr and exit with status 2; internal errors
-keep their traceback.
+User errors print one line `gen: error: ...` on stderr and exit with status 2; an unexpected
+internal error prints one line with a hint to rerun with `--debug`, which shows the traceback,
+and exits with status 3. Only argparse is imported before a command runs, so `gen --help` and
+`gen --version` start at once; each command imports what it needs.
 """
 
 from __future__ import annotations
 
 import argparse
 import json
+import os
 import sys
 import warnings
 from pathlib import Path
 
-from . import __version__
-from .errors import UserError
+from .errors import UserError, printable
+from .version import __version__
 
-__all__ = ["main"]
+__all__ = ["main", "parser"]
 
 
-def _fmt_sigma(value: float, error: float, unit: str = "pb") -> str:
+def _fmt_value(value: float, error: float, unit: str) -> str:
     rel = f"{100 * error / value:.3g}%" if value else "n/a"
     return f"{value:.6g} ± {error:.3g} {unit}  ({rel})"
 
 
 def _measure_line(rec: dict, value: float, error: float) -> str:
     """'σ ...' for a cross-section; 'Γ ...' with the lifetime for a particle decaying at rest."""
-    m = rec.get("measure", {"unit": "pb"})
+    m = rec["measure"]
     if m["unit"] == "GeV":
         life = f", lifetime {m['lifetime_s']:.6g} s" if "lifetime_s" in m else ""
-        return f"  Γ           {_fmt_sigma(value, error, 'GeV')}{life}"
-    return f"  σ           {_fmt_sigma(value, error)}"
+        return f"  Γ           {_fmt_value(value, error, 'GeV')}{life}"
+    return f"  σ           {_fmt_value(value, error, m['unit'])}"
 
 
 def _print_warnings(caught) -> None:
@@ -39,29 +42,29 @@ def _print_warnings(caught) -> None:
 
 def _cmd_adapt(args) -> int:
     from .card import load_card
-    from .grid import make_grid
-    from .process import build_process
+    from .processes import build_process
     from .progress import Progress
+    from .sampling.grid import make_grid
 
     cfg = load_card(args.card).with_overrides(seed=args.seed)
+    proc = build_process(cfg)
     progress = Progress(enabled=None if not args.quiet else False)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        grid = make_grid(build_process(cfg), cfg, progress)
+        grid = make_grid(proc, cfg, progress)
     _print_warnings(caught)
     path = grid.save(args.output)
     if not args.quiet:
-        xs = grid.cross_section
-        print(f"  σ           {_fmt_sigma(xs.value, xs.error)}   chi2/dof {xs.chi2_dof:.2f}, Q {xs.q:.2f}")
-        print(f"  w_max       {grid.max_weight:.6g} pb from {cfg.sampling['calibration_points']} calibration points")
+        xs, m = grid.cross_section, proc.measure
+        print(f"  {m.symbol}           {_fmt_value(xs.value, xs.error, m.unit)}   chi2/dof {xs.chi2_dof:.2f}, Q {xs.q:.2f}")
+        print(f"  w_max       {grid.max_weight:.6g} {m.unit} from {cfg.sampling['calibration_points']} calibration points")
         print(f"  wrote       {path}")
     return 0
 
 
-def _grid_for_parts(cfg, args, folder: Path, progress):
+def _grid_for_parts(cfg, proc, args, folder: Path, progress):
     """The grid of a multi-part run: --grid, else the folder's own grid.json, else adapt one there."""
-    from .grid import Grid, GridError, make_grid
-    from .process import build_process
+    from .sampling.grid import Grid, GridError, make_grid
 
     if args.grid:
         return Grid.load(args.grid), Path(args.grid)
@@ -70,18 +73,20 @@ def _grid_for_parts(cfg, args, folder: Path, progress):
         try:
             grid = Grid.load(path)
             grid.check_card(cfg, cfg.source)
+            grid.check_process(proc, cfg.source)
             return grid, path  # resume: the parts already made used this grid
         except GridError:
             pass
-    grid = make_grid(build_process(cfg), cfg, progress)
+    grid = make_grid(proc, cfg, progress)
     return grid, grid.save(path)
 
 
 def _cmd_run(args) -> int:
     from .card import load_card
-    from .grid import Grid
+    from .jobs.run import default_folder, run
+    from .processes import build_process
     from .progress import Progress
-    from .run import default_folder, run
+    from .sampling.grid import Grid
 
     overrides = {"events": args.events, "seed": args.seed}
     cfg = load_card(args.card).with_overrides(**overrides, folder=args.output)
@@ -99,20 +104,22 @@ def _cmd_run(args) -> int:
         raise UserError(f"--job must be in 0..{jobs - 1} and --jobs at least 1 (found --job {args.job}, --jobs {jobs})")
     if args.workers is not None and args.workers < 1:
         raise UserError(f"--workers must be at least 1, found {args.workers}")
+    proc = build_process(cfg)  # every card and phase-space error comes before anything is printed
+    grid = Grid.load(args.grid) if args.grid else None
     if show:
         print(f"gen {__version__} ▸ {' '.join(p.name for p in cfg.incoming)} → "
               f"{' '.join(p.name for p in cfg.outgoing)}  [{cfg.model}]  card {cfg.source}")
     progress = Progress(enabled=None if show else False)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        if args.job is None and jobs == 1 and not distributed and args.grid is None:
-            res = run(cfg, progress=progress)
+        if args.job is None and jobs == 1 and not distributed and grid is None:
+            res = run(cfg, progress=progress, process=proc)
             _print_warnings(caught)
             if show:
                 _report_run(res)
             return 0
         if args.job is not None:
-            res = run(cfg, progress=progress, grid=Grid.load(args.grid), job=args.job, jobs=jobs)
+            res = run(cfg, progress=progress, grid=grid, job=args.job, jobs=jobs, process=proc)
             _print_warnings(caught)
             if show:
                 if res.skipped:
@@ -120,9 +127,9 @@ def _cmd_run(args) -> int:
                 else:
                     _report_run(res)
             return 0
-        grid, grid_path = _grid_for_parts(cfg, args, folder, progress)
+        grid, grid_path = _grid_for_parts(cfg, proc, args, folder, progress)
         if distributed:
-            from .distributed import run_parts_on_dask
+            from .jobs.distributed import run_parts_on_dask
 
             done = run_parts_on_dask(cfg, grid_path, jobs, folder, workers=args.workers, scheduler=args.scheduler,
                                      overrides=overrides, progress=progress)
@@ -130,7 +137,7 @@ def _cmd_run(args) -> int:
         else:
             skipped = 0
             for j in range(jobs):
-                res = run(cfg, progress=progress, grid=grid, job=j, jobs=jobs)
+                res = run(cfg, progress=progress, grid=grid, job=j, jobs=jobs, process=proc)
                 skipped += res.skipped
         _print_warnings(caught)
     if show:
@@ -141,21 +148,23 @@ def _cmd_run(args) -> int:
 
 def _report_run(res) -> None:
     xs = res.cross_section
-    col = res.record["collider"]
+    rec = res.record
+    col = rec["collider"]
+    unit = rec["measure"]["unit"]
     print(f"  {'at rest' if col.get('at_rest') else 'sqrt(s)':<11} {col['sqrt_s_GeV']:.6g} GeV")
-    print(f"{_measure_line(res.record, xs.value, xs.error)}   chi2/dof {xs.chi2_dof:.2f}, Q {xs.q:.2f}")
+    print(f"{_measure_line(rec, xs.value, xs.error)}   chi2/dof {xs.chi2_dof:.2f}, Q {xs.q:.2f}")
     st = res.unweighting
     if st is not None:
         est, err = st.estimate
         print(f"  unweighted  {st.accepted} events, efficiency {st.efficiency:.1%}, "
-              f"{st.overflow_events} above w_max carrying {st.overflow_share:.2%} of σ "
-              f"(sampling pass: {est:.6g} ± {err:.2g} {res.record.get('measure', {}).get('unit', 'pb')})")
+              f"{st.overflow_events} above w_max carrying {st.overflow_share:.2%} of the total "
+              f"(sampling pass: {est:.6g} ± {err:.2g} {unit})")
     for f in res.files:
         print(f"  wrote       {f}")
 
 
 def _report_combined(folder) -> None:
-    from .batch import check_parts, collect_parts, combine
+    from .jobs.batch import check_parts, collect_parts, combine
 
     parts = collect_parts([folder])
     problems = check_parts(parts)
@@ -163,20 +172,22 @@ def _report_combined(folder) -> None:
         print(f"  ! {p}")
     if "unweighted" in parts and not problems:
         c = combine(parts["unweighted"])
-        print(f"  σ combined  {_fmt_sigma(c['value_pb'], c['error_pb'])} from {c['parts']} parts "
-              f"(grid {c['adaptation']['value_pb']:.6g} ± {c['adaptation']['error_pb']:.2g}, "
-              f"sampling {c['sampling']['value_pb']:.6g} ± {c['sampling']['error_pb']:.2g} pb)")
+        unit = parts["unweighted"][0].record["measure"]["unit"]
+        print(f"  combined    {_fmt_value(c['value'], c['error'], unit)} from {c['parts']} parts "
+              f"(grid {c['adaptation']['value']:.6g} ± {c['adaptation']['error']:.2g}, "
+              f"sampling {c['sampling']['value']:.6g} ± {c['sampling']['error']:.2g} {unit})")
         print(f"  unweighted  {c['events']} events, efficiency {c['efficiency']:.1%}")
 
 
 def _cmd_merge(args) -> int:
-    from .batch import merge
+    from .jobs.batch import merge
     from .progress import Progress
 
     files, combined = merge(args.parts, args.output, Progress(enabled=None if not args.quiet else False))
     if not args.quiet:
         if combined:
-            print(f"  σ combined  {_fmt_sigma(combined['value_pb'], combined['error_pb'])} from "
+            unit = combined.get("unit", "pb")
+            print(f"  combined    {_fmt_value(combined['value'], combined['error'], unit)} from "
                   f"{combined['parts']} parts, {combined['events']} unweighted events")
         for f in files:
             print(f"  wrote       {f}")
@@ -184,20 +195,20 @@ def _cmd_merge(args) -> int:
 
 
 def _summarize(path: Path) -> dict:
-    from .store import read_run
+    from .records.store import read_run
 
     rec = read_run(path)
     return {"path": str(path), "weighting": rec["weighting"], "events": rec["events"],
             "cross_section": rec["cross_section"], "process": rec["process"], "collider": rec["collider"],
-            "parameters": rec["parameters"], "unweighting": rec.get("unweighting"), "seed": rec["seed"],
-            "job": rec["job"], "schema_version": rec["schema_version"], "program": rec["program"],
-            "created": rec["created"], "measure": rec.get("measure", {"quantity": "cross-section", "unit": "pb"}),
+            "parameters": rec.get("parameters", {}), "unweighting": rec.get("unweighting"), "seed": rec["seed"],
+            "job": rec["job"], "schema_version": rec["schema_version"], "program": rec.get("program", "?"),
+            "created": rec.get("created", "?"), "measure": rec["measure"],
             **({"decays": rec["decays"]} if "decays" in rec else {})}
 
 
 def _cmd_info(args) -> int:
-    from .batch import check_parts, collect_parts, combine
-    from .store import event_files
+    from .jobs.batch import check_parts, collect_parts, combine
+    from .records.store import event_files
 
     infos = [_summarize(f) for f in event_files(args.path)]
     parts = [i for i in infos if i["job"]["count"] > 1 and i["job"]["index"] is not None]
@@ -213,11 +224,12 @@ def _cmd_info(args) -> int:
         sys.stdout.write("\n")
         return 0
     if parts:
+        unit = parts[0]["measure"]["unit"]
         print(f"{args.path}: {len(parts)} part files")
         for p in problems:
             print(f"  ! {p}")
         if combined:
-            print(f"  σ combined  {_fmt_sigma(combined['value_pb'], combined['error_pb'])} from "
+            print(f"  combined    {_fmt_value(combined['value'], combined['error'], unit)} from "
                   f"{combined['parts']} parts (not merged; `gen merge` writes the sample)")
             print(f"  unweighted  {combined['events']} events, efficiency {combined['efficiency']:.1%}")
         for info in parts:
@@ -225,74 +237,87 @@ def _cmd_info(args) -> int:
                   f"{info['events']['count']:>9} events  {Path(info['path']).name}")
         infos = [i for i in infos if i not in parts]
     for info in infos:
-        xs = info["cross_section"]["total"]
-        proc = info["process"]
-        print(f"{info['path']}  ({info['weighting']}, schema {info['schema_version']}, {info['program']})")
-        if "subprocesses" in proc:
-            print(f"  process     {proc['label']}  [{proc['model']}], {len(proc['subprocesses'])} subprocesses")
-        else:
-            print(f"  process     {proc['label']}  [{proc['model']}], symmetry factor {proc['symmetry_factor']:g}")
-        at_rest = info["collider"].get("at_rest")
-        print(f"  {'at rest' if at_rest else 'sqrt(s)':<11} {info['collider']['sqrt_s_GeV']:.6g} GeV")
-        for st in info.get("decays", {}).get("chain", []):
-            print(f"  decay       {st['particle']} -> {' '.join(st['into'])}, BR {st['branching_ratio']:.5g} "
-                  f"({st['branching_ratio_source']}), mass {st['mass_GeV']:.6g} ± {st['window_widths']:g} x {st['width_GeV']:.4g} GeV")
-        if "parton_densities" in info["collider"]:
-            col = info["collider"]
-            dens = col["parton_densities"]
-            scales = col["scales"]
-            print(f"  partons     {dens['set']} member {dens['member']}, alpha_s {col['alpha_s']}; scales "
-                  f"renormalization {scales['renormalization']}, factorization {scales['factorization']}"
-                  + (f", times {scales['factor']:g}" if scales["factor"] != 1 else ""))
-            top = sorted(info["cross_section"].get("by_subprocess", {}).items(), key=lambda kv: -kv[1]["value_pb"])[:5]
-            for label, v in top:
-                print(f"    {label:<24} {v['value_pb']:.5g} pb  ({v['events']} events)")
-        print(_measure_line(info, xs["value_pb"], xs["error_pb"]))
-        ev = info["events"]
-        print(f"  events      {ev['count']}, sum of weights {ev['sum_weights_pb']:.6g} pb, "
-              f"largest weight {ev['max_weight_pb']:.4g} pb")
-        if info["unweighting"]:
-            u = info["unweighting"]
-            print(f"  unweighting efficiency {u['efficiency']:.1%}, {u['overflow_events']} above w_max "
-                  f"({u['overflow_share']:.2%} of σ)")
-        model = info["parameters"]["model"]
-        print("  parameters  " + ", ".join(f"{k} = {v:.6g}" if isinstance(v, float) else f"{k} = {v}"
-                                         for k, v in model.items()))
-        job = info["job"]
-        where = (f"merged from {len(job['merged'])} parts" if "merged" in job
-                 else f"job {job['index']} of {job['count']}")
-        print(f"  seed {info['seed']}, {where}, created {info['created']}")
+        _print_info(info)
     return 0
 
 
+def _print_info(info: dict) -> None:
+    xs = info["cross_section"]["total"]
+    proc = info["process"]
+    unit = info["measure"]["unit"]
+    print(f"{info['path']}  ({info['weighting']}, schema {info['schema_version']}, {info['program']})")
+    if "subprocesses" in proc:
+        print(f"  process     {proc['label']}  [{proc['model']}], {len(proc['subprocesses'])} subprocesses")
+    else:
+        print(f"  process     {proc['label']}  [{proc['model']}], symmetry factor {proc.get('symmetry_factor', 1):g}")
+    col = info["collider"]
+    print(f"  {'at rest' if col.get('at_rest') else 'sqrt(s)':<11} {col['sqrt_s_GeV']:.6g} GeV")
+    for st in info.get("decays", {}).get("chain", []):
+        print(f"  decay       {st['particle']} -> {' '.join(st['into'])}, BR {st['branching_ratio']:.5g} "
+              f"({st['branching_ratio_source']}), mass {st['mass_GeV']:.6g} ± {st['window_widths']:g} x "
+              f"{st['width_GeV']:.4g} GeV")
+    if "parton_densities" in col:
+        dens, scales = col["parton_densities"], col["scales"]
+        print(f"  partons     {dens['set']} member {dens['member']}, alpha_s {col['alpha_s']}; scales "
+              f"renormalization {scales['renormalization']}, factorization {scales['factorization']}"
+              + (f", times {scales['factor']:g}" if scales["factor"] != 1 else ""))
+        top = sorted(info["cross_section"].get("by_subprocess", {}).items(), key=lambda kv: -kv[1]["value"])[:5]
+        for label, v in top:
+            print(f"    {label:<24} {v['value']:.5g} {unit}  ({v['events']} events)")
+    print(_measure_line(info, xs["value"], xs["error"]))
+    ev = info["events"]
+    print(f"  events      {ev['count']}, sum of weights {ev['sum_weights']:.6g} {unit}, "
+          f"largest weight {ev.get('max_weight', 0.0):.4g} {unit}")
+    if info["unweighting"]:
+        u = info["unweighting"]
+        print(f"  unweighting efficiency {u['efficiency']:.1%}, {u['overflow_events']} above w_max "
+              f"({u['overflow_share']:.2%} of the total)")
+    couplings = info["parameters"].get("couplings", {})
+    if couplings:
+        print("  couplings   " + ", ".join(f"{k} = {v:.6g}" for k, v in couplings.items()))
+    model = info["parameters"].get("model", {})
+    print("  parameters  " + ", ".join(f"{k} = {v:.6g}" if isinstance(v, float) else f"{k} = {v}"
+                                     for k, v in model.items()))
+    job = info["job"]
+    where = f"merged from {len(job['merged'])} parts" if "merged" in job else f"job {job['index']} of {job['count']}"
+    print(f"  seed {info['seed']}, {where}, created {info['created']}")
+
+
 def _cmd_validate(args) -> int:
-    from .store import event_files
+    from .records.store import event_files
     from .validate import Thresholds, validate
 
     th = Thresholds(p_min=args.p_min, pull_max=args.pull_max, sigma_max=args.sigma_max)
     files = [f for f in event_files(args.path) if "-part" not in f.name]
+    if not files:
+        raise UserError(f"{args.path}: holds only batch parts; merge them first (`gen merge {args.path} -o DIR`) "
+                        "and validate the merged sample")
     reports = [validate(f, out=args.out, bins=args.bins, thresholds=th, plots=not args.no_plots) for f in files]
     if args.json:
         json.dump({"reports": reports}, sys.stdout, indent=2)
         sys.stdout.write("\n")
     else:
         for r in reports:
-            xs = r["cross_section"]
+            xs, unit = r["cross_section"], r["unit"]
             print(f"{r['file']}  ({r['weighting']}, {r['events']} events)  →  {r['verdict'].upper()}")
             print(f"  reference   {r['reference']['name']}")
-            print(f"  σ           sample {xs['sample_pb']:.6g} ± {xs['sample_error_pb']:.2g} pb, "
-                  f"reference {xs['reference_pb']:.6g} pb, pull {xs['pull']:+.2f}  {'ok' if xs['pass'] else 'FAIL'}")
+            print(f"  total       sample {xs['sample']:.6g} ± {xs['sample_error']:.2g} {unit}, "
+                  f"reference {xs['reference']:.6g} {unit}, pull {xs['pull']:+.2f}  {'ok' if xs['pass'] else 'FAIL'}")
             for o in r["observables"]:
                 print(f"  {o['name']:<13} chi2/dof {o['chi2']:7.1f}/{o['dof']:<3} p = {o['p_value']:<9.3g} "
                       f"largest pull {o['max_pull']:4.1f}  {'ok' if o['pass'] else 'FAIL'}")
+            if r["reference"]["note"]:
+                print(f"  note        {r['reference']['note']}")
             print(f"  report      {r['report']}")
     return 0 if all(r["verdict"] == "pass" for r in reports) else 1
 
 
 def _cmd_plot(args) -> int:
     from .plots import quick_look
-    from .store import event_files
+    from .records.store import event_files
 
+    if args.bins < 1:
+        raise UserError(f"--bins must be at least 1, found {args.bins}")
     for f in event_files(args.path):
         for png in quick_look(f, out=args.out, bins=args.bins):
             print(f"  wrote       {png}")
@@ -300,23 +325,53 @@ def _cmd_plot(args) -> int:
 
 
 def _cmd_processes(args) -> int:
-    from .matrix import MODELS
+    from .physics.matrix import MODELS
+    from .physics.particles import GROUPS, HADRON_PARTONS, lookup
 
+    wanted = lookup(args.particle, "gen processes", "--particle").name if args.particle else None
+    if args.model and args.model not in MODELS:
+        from .errors import close_matches
+
+        raise UserError(f"--model {args.model!r} is not a model" + close_matches(args.model, MODELS)
+                        + "; models: " + ", ".join(MODELS))
     for name, model in MODELS.items():
+        if args.model and name != args.model:
+            continue
+        fixed = [s for s in model.processes if not all(p in HADRON_PARTONS["p"] for p in s.incoming)]
+        partonic = [s for s in model.processes if all(p in HADRON_PARTONS["p"] for p in s.incoming)]
+        if wanted:
+            fixed = [s for s in fixed if wanted in s.incoming + s.outgoing]
+            partonic = [s for s in partonic if wanted in s.incoming + s.outgoing]
+            if not fixed and not partonic:
+                continue
         print(f"{name}: {model.doc}")
-        for spec in model.processes:
+        for spec in fixed:
             sym = "  (identical final particles: factor 1/2)" if spec.symmetry != 1 else ""
             cut = ("  [needs cuts away from the soft and collinear regions]" if len(spec.outgoing) > 2
                    else "  [needs cuts away from the beam axis]") if spec.needs_angular_cut else ""
             print(f"    {spec.label}{sym}{cut}")
+        if partonic:
+            finals = sorted({" ".join(_grouped(s.outgoing, GROUPS)) for s in partonic})
+            print(f"    with hadron beams (p p, p pbar; {len(partonic)} parton processes), outgoing: "
+                  + "; ".join(finals))
         print("    parameters: " + ", ".join(model.params))
     return 0
+
+
+def _grouped(outgoing, groups) -> list[str]:
+    """Outgoing particle names, each replaced by the first group that holds it (jet for partons)."""
+    out = []
+    for p in outgoing:
+        home = next((g for g in ("jet", "l-", "l+", "nu", "nubar") if p in groups[g]), p)
+        out.append(home)
+    return sorted(out)
 
 
 def parser() -> argparse.ArgumentParser:
     ap = argparse.ArgumentParser(prog="gen", description="Leading-order event generation to Parquet.")
     ap.add_argument("--version", action="version", version=f"gen {__version__}")
-    sub = ap.add_subparsers(dest="command", required=True)
+    ap.add_argument("--debug", action="store_true", help="show the traceback of an internal error")
+    sub = ap.add_subparsers(dest="command", required=True, metavar="COMMAND")
     a = sub.add_parser("adapt", help="adapt the vegas grid once and write it, for batch parts")
     a.add_argument("card", help="run card (TOML)")
     a.add_argument("-o", "--output", required=True, help="grid file to write (JSON)")
@@ -347,20 +402,22 @@ def parser() -> argparse.ArgumentParser:
     v.add_argument("--p-min", type=float, default=1e-4, help="smallest accepted chi-square p-value (default 1e-4)")
     v.add_argument("--pull-max", type=float, default=6.0, help="largest accepted bin pull (default 6)")
     v.add_argument("--sigma-max", type=float, default=5.0,
-                   help="largest accepted deviation of the total cross-section, in standard deviations (default 5)")
+                   help="largest accepted deviation of the total, in standard deviations (default 5)")
     v.add_argument("--no-plots", action="store_true", help="write the report only")
     v.add_argument("--json", action="store_true", help="print the reports as JSON")
     v.set_defaults(func=_cmd_validate)
     q = sub.add_parser("plot", help="quick-look histograms of the outgoing particles")
     q.add_argument("path", help="an event file or a run folder")
     q.add_argument("--out", help="folder for the PNG files (default: <run folder>/plots)")
-    q.add_argument("--bins", type=int, default=40)
+    q.add_argument("--bins", type=int, default=40, help="bins per histogram (default 40)")
     q.set_defaults(func=_cmd_plot)
     i = sub.add_parser("info", help="describe an event file or a run folder")
-    i.add_argument("path")
+    i.add_argument("path", help="an event file, a run folder or a folder of batch parts")
     i.add_argument("--json", action="store_true", help="machine-readable output")
     i.set_defaults(func=_cmd_info)
     p = sub.add_parser("processes", help="list the process library by model")
+    p.add_argument("--model", help="only this model")
+    p.add_argument("--particle", help="only processes with this particle (a name or PDG id)")
     p.set_defaults(func=_cmd_processes)
     return ap
 
@@ -370,11 +427,21 @@ def main(argv: list[str] | None = None) -> int:
     try:
         return args.func(args)
     except UserError as exc:
-        print(f"gen: error: {exc}", file=sys.stderr)
+        print(f"gen: error: {printable(str(exc))}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("gen: interrupted; no incomplete file was left behind", file=sys.stderr)
         return 130
+    except BrokenPipeError:  # the reader of our output went away (`gen processes | head`)
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 0
+    except Exception as exc:
+        if args.debug:
+            raise
+        print(f"gen: internal error: {type(exc).__name__}: {printable(str(exc))[:300]}; this is a defect of gen, "
+              "not of your input: rerun with --debug for the traceback and report it", file=sys.stderr)
+        return 3
 
 
 if __name__ == "__main__":

@@ -1,17 +1,18 @@
 """Regenerate the README sections that are made from data: the card reference and the schema.
 
-`python -m gen.docs` rewrites the text between the markers in README.md; the tests check that
-the README matches, so the documentation cannot drift from `gen/card.py` and `schema/`.
+`python -m gen.docs [README]` rewrites the text between the markers in the README; the tests
+check that the README matches, so the documentation cannot drift from `gen/card.py` and `schema/`.
 """
 
 from __future__ import annotations
 
+import argparse
 import re
 import sys
 from pathlib import Path
 
 from .card import reference_markdown
-from .store import schema_markdown
+from .records.schema import schema_markdown
 
 SECTIONS = {"card-reference": reference_markdown, "schema": schema_markdown}
 
@@ -26,7 +27,11 @@ def render(text: str) -> str:
 
 
 def main(argv=None) -> int:
-    path = Path(argv[0] if argv else "README.md")
+    ap = argparse.ArgumentParser(prog="python -m gen.docs", description="Regenerate the README sections made from "
+                                 "data (the card reference and the schema).")
+    ap.add_argument("readme", nargs="?", default="README.md", help="the README to update (default README.md)")
+    args = ap.parse_args(argv)
+    path = Path(args.readme)
     path.write_text(render(path.read_text(encoding="utf-8")), encoding="utf-8")
     return 0
 

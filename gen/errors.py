@@ -12,7 +12,7 @@ from __future__ import annotations
 import difflib
 from collections.abc import Iterable
 
-__all__ = ["GenError", "UserError", "CardError", "OutputError", "close_matches"]
+__all__ = ["GenError", "UserError", "CardError", "OutputError", "close_matches", "printable"]
 
 
 class GenError(Exception):
@@ -36,6 +36,12 @@ class CardError(UserError):
 
 class OutputError(UserError):
     """An output file or folder that cannot be written or read as a `gen` event file."""
+
+
+def printable(text: str) -> str:
+    """Text with control characters (other than newlines) escaped, so that a message quoting what a
+    user wrote cannot move the terminal's cursor or change its colours."""
+    return "".join(c if c == "\n" or (c.isprintable() or c == " ") else repr(c)[1:-1] for c in text)
 
 
 def close_matches(word: str, candidates: Iterable[str], n: int = 3) -> str:

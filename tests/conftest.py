@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 
 from gen.card import parse_card
-from gen.process import build_process
-from gen.sampler import adapt
+from gen.processes import build_process
+from gen.sampling.sampler import adapt
 
 
 def card(model: str, incoming, outgoing, collider: str, extra: str = "", sampling: str = "") -> str:

@@ -16,11 +16,11 @@ import pyarrow.parquet as pq
 import pytest
 
 import gen
-from gen.batch import MergeError, PartFile, check_parts, collect_parts, combine, merge
+from gen.jobs.batch import MergeError, PartFile, check_parts, collect_parts, combine, merge
 from gen.card import parse_card
-from gen.grid import Grid, GridError, make_grid
-from gen.process import build_process
-from gen.run import part_name
+from gen.sampling.grid import Grid, GridError, make_grid
+from gen.processes import build_process
+from gen.jobs.run import part_name
 
 from conftest import card
 
@@ -46,19 +46,19 @@ def _parts(folder, grid_file, jobs=3, text=TEXT, only=None):
 def test_combination_against_a_hand_calculation():
     """Pooled sampling mean, then inverse-variance combination with the grid estimate (gen.batch docstring)."""
     def part(job, trials, sw, sw2):
-        return PartFile(Path(f"p{job}"), {"cross_section": {"total": {"value_pb": 10.0, "error_pb": 0.02}},
-                                          "unweighting": {"trials": trials, "sum_w_pb": sw, "sum_w2_pb2": sw2,
+        return PartFile(Path(f"p{job}"), {"cross_section": {"total": {"value": 10.0, "error": 0.02}},
+                                          "unweighting": {"trials": trials, "sum_w": sw, "sum_w2": sw2,
                                                           "accepted": trials // 2, "overflow_events": 0,
-                                                          "overflow_share": 0.0}})
+                                                          "overflow_share": 0.0}, "measure": {"unit": "pb"}})
     parts = [part(0, 100, 1000.0, 10100.0), part(1, 300, 3030.0, 30900.0)]
     c = combine(parts)
     # by hand: n = 400, sum w = 4030, sum w^2 = 41000 -> mean 10.075, var = 41000/400 - 10.075^2
     s = 4030.0 / 400
     ds = math.sqrt((41000.0 / 400 - s * s) / 400)
-    assert c["sampling"]["value_pb"] == pytest.approx(10.075) and c["sampling"]["error_pb"] == pytest.approx(ds)
+    assert c["sampling"]["value"] == pytest.approx(10.075) and c["sampling"]["error"] == pytest.approx(ds)
     wg, ws = 1 / 0.02**2, 1 / ds**2
-    assert c["value_pb"] == pytest.approx((10.0 * wg + s * ws) / (wg + ws))
-    assert c["error_pb"] == pytest.approx(1 / math.sqrt(wg + ws))
+    assert c["value"] == pytest.approx((10.0 * wg + s * ws) / (wg + ws))
+    assert c["error"] == pytest.approx(1 / math.sqrt(wg + ws))
     assert c["events"] == 200 and c["efficiency"] == pytest.approx(0.5)
 
 
@@ -70,9 +70,9 @@ def test_parts_merge_into_one_consistent_sample(tmp_path, grid_file):
     ids = unw.column("event_id").to_numpy()
     assert np.unique(ids).size == ids.size
     w = unw.column("weight").to_numpy()
-    assert w.sum() == pytest.approx(combined["value_pb"], rel=1e-12)
+    assert w.sum() == pytest.approx(combined["value"], rel=1e-12)
     rec = gen.read_run(tmp_path / "merged" / "unweighted.parquet")
-    assert rec["cross_section"]["total"]["value_pb"] == combined["value_pb"]
+    assert rec["cross_section"]["total"]["value"] == combined["value"]
     assert rec["job"]["merged"] == [0, 1, 2]
     # the merged weighted file: weights rescaled to the total number of trials
     wt = gen.read_table(tmp_path / "merged" / "weighted.parquet").column("weight").to_numpy()
@@ -85,7 +85,7 @@ def test_parts_merge_into_one_consistent_sample(tmp_path, grid_file):
     m = proc.masses[2]
     beta = math.sqrt(1 - 4 * m * m / 100.0)
     expect = 4 * math.pi * proc.params["alpha"] ** 2 / 300.0 * 0.3893793721e9 * beta * (3 - beta**2) / 2
-    assert abs(combined["value_pb"] - expect) < 5 * combined["error_pb"] + 1e-6 * expect
+    assert abs(combined["value"] - expect) < 5 * combined["error"] + 1e-6 * expect
 
 
 def test_same_job_same_bytes_other_job_other_events(tmp_path, grid_file):
@@ -186,7 +186,7 @@ def test_job_without_grid_is_a_user_error(tmp_path):
 
 def test_dask_route_equals_the_batch_route(tmp_path, grid_file):
     pytest.importorskip("dask.distributed")
-    from gen.distributed import run_parts_on_dask
+    from gen.jobs.distributed import run_parts_on_dask
 
     cfg = _parts(tmp_path / "batch", grid_file, jobs=4)
     done = run_parts_on_dask(cfg, Path(grid_file), 4, tmp_path / "dask", workers=2)
@@ -199,4 +199,4 @@ def test_dask_route_equals_the_batch_route(tmp_path, grid_file):
                 assert a.column(col).equals(b.column(col)), (j, kind, col)
     _, c1 = merge([tmp_path / "batch"], tmp_path / "m1")
     _, c2 = merge([tmp_path / "dask"], tmp_path / "m2")
-    assert c1["value_pb"] == c2["value_pb"] and c1["error_pb"] == c2["error_pb"]
+    assert c1["value"] == c2["value"] and c1["error"] == c2["error"]

@@ -6,7 +6,7 @@ import pytest
 
 from gen.card import load_card, parse_card
 from gen.errors import CardError
-from gen.process import build_process
+from gen.processes import build_process
 
 from conftest import card
 

@@ -34,7 +34,7 @@ def test_run_then_info_through_the_command(tmp_path):
     assert set(kinds) == {"unweighted", "weighted"}
     unw = kinds["unweighted"]
     assert unw["events"]["count"] == 3000 and unw["seed"] == 5
-    assert unw["cross_section"]["total"]["value_pb"] > 0
+    assert unw["cross_section"]["total"]["value"] > 0
     assert unw["process"]["label"] == "e- e+ -> mu- mu+"
     assert unw["parameters"]["model"]["scheme"] == "fermi"
     text = _gen("info", str(tmp_path / "run" / "unweighted.parquet"))
@@ -105,7 +105,7 @@ def test_adapt_parts_info_and_merge_through_the_command(tmp_path):
     assert r.returncode == 0, r.stderr
     merged = json.loads(_gen("info", str(tmp_path / "merged" / "unweighted.parquet"), "--json").stdout)["files"][0]
     assert merged["events"]["count"] == 4000
-    assert merged["cross_section"]["total"]["value_pb"] == pytest.approx(info["combined"]["value_pb"])
+    assert merged["cross_section"]["total"]["value"] == pytest.approx(info["combined"]["value"])
     # a part made with another event total does not belong: refused, exit 2, one message
     r = _gen("run", str(card), "--grid", str(grid), "--job", "0", "--jobs", "2", "--events", "5000",
              "-o", str(tmp_path / "other"), "--quiet")

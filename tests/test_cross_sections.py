@@ -93,7 +93,7 @@ def test_positron_annihilation_in_flight_against_dirac():
         proc, xs = integrate(card("qed", ("e+", "e-"), ("gamma", "gamma"),
                                   f"beam_energy = {0.00051099895069 + kinetic_mev * 1e-3}"))
         me = proc.masses[0]
-        gamma = proc.beams.p1[0] / me
+        gamma = proc.beam1[0] / me
         r_e_fm = proc.params["alpha"] * 0.1973269804 / me
         expect = ref.dirac_annihilation(gamma, r_e_fm) * 1e-2 * ref.BARN_PB
         assert within(xs.value, xs.error, expect, rel_floor=1e-8), (kinetic_mev, xs.value, expect)
@@ -155,7 +155,7 @@ def test_scalar_with_cubic_coupling_against_a_numerical_integral():
 
 @pytest.mark.parametrize("flavour,rs", [("mu-", 35.0), ("mu-", 91.1879), ("mu-", 200.0), ("d", 60.0), ("b", 91.1879), ("u", 150.0)])
 def test_electroweak_pair_against_the_textbook_gamma_z_formula(flavour, rs):
-    from gen.particles import species
+    from gen.physics.particles import species
 
     anti = {"mu-": "mu+"}.get(flavour, flavour + "bar")
     proc, xs = integrate(card("electroweak", ("e-", "e+"), (flavour, anti), f"sqrt_s = {rs}"))

@@ -11,7 +11,7 @@ from scipy.stats import chi2 as chi2_dist
 
 import gen
 from gen.card import parse_card
-from gen.run import UNWEIGHTED_FILE, WEIGHTED_FILE
+from gen.jobs.run import UNWEIGHTED_FILE, WEIGHTED_FILE
 
 from conftest import card
 
@@ -63,7 +63,7 @@ def test_weights_sum_to_the_cross_section(samples, name):
     unw = gen.read_run(folder / UNWEIGHTED_FILE)
     w = gen.read_run(folder / WEIGHTED_FILE)
     assert unw["events"]["count"] == 20000
-    assert unw["events"]["sum_weights_pb"] == pytest.approx(xs.value, rel=1e-12)
+    assert unw["events"]["sum_weights"] == pytest.approx(xs.value, rel=1e-12)
     # the weighted file is an independent estimate: agree within 5 standard deviations of its own error
     table = gen.read_table(folder / WEIGHTED_FILE, columns=["weight"])
     weights = table.column("weight").to_numpy()
@@ -72,7 +72,7 @@ def test_weights_sum_to_the_cross_section(samples, name):
     err = math.sqrt(max((weights**2).sum() * n_trials - mean**2, 0.0) / n_trials)
     assert abs(mean - xs.value) < 5 * math.hypot(err, xs.error), (mean, err, xs.value)
     st = unw["unweighting"]
-    assert abs(st["sampling_estimate_pb"] - xs.value) < 5 * math.hypot(st["sampling_error_pb"], xs.error)
+    assert abs(st["sampling_estimate"] - xs.value) < 5 * math.hypot(st["sampling_error"], xs.error)
 
 
 def test_unweighted_angular_distribution_against_the_analytic_shape(samples):
@@ -141,10 +141,10 @@ def test_same_card_and_seed_give_identical_events(tmp_path):
 
 
 def test_a_failing_run_leaves_no_complete_looking_file(tmp_path, monkeypatch):
-    from gen import process
+    from gen.processes import fixed_beams
 
     calls = {"n": 0}
-    original = process.TwoToTwo.momenta
+    original = fixed_beams.TwoToTwo.events
 
     def failing(self, x, rng):
         calls["n"] += 1
@@ -152,7 +152,7 @@ def test_a_failing_run_leaves_no_complete_looking_file(tmp_path, monkeypatch):
             raise RuntimeError("simulated crash while writing")
         return original(self, x, rng)
 
-    monkeypatch.setattr(process.TwoToTwo, "momenta", failing)
+    monkeypatch.setattr(fixed_beams.TwoToTwo, "events", failing)
     with pytest.raises(RuntimeError):
         gen.run(parse_card(CASES["scalar"], "s.toml"), folder=tmp_path)
     assert list(tmp_path.iterdir()) == [], "nothing, not even a temporary file, is left behind"
@@ -177,7 +177,7 @@ def test_readers_of_the_ecosystem_read_the_file_without_our_code(samples):
 
 
 def test_a_failure_in_the_weighted_pass_publishes_neither_file(tmp_path, monkeypatch):
-    from gen import sampler
+    from gen.sampling import sampler
 
     def failing(self, rng, n):
         raise OSError(28, "No space left on device")

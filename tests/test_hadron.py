@@ -11,13 +11,13 @@ import pytest
 import scipy.integrate as si
 import sympy
 
-from gen import pdf
+from gen.physics import pdf
 from gen.card import parse_card
 from gen.errors import CardError
-from gen.matrix import qcd
-from gen.process import build_process
-from gen.run import run
-from gen.store import read_run, read_table
+from gen.physics.matrix import qcd
+from gen.processes import build_process
+from gen.jobs.run import run
+from gen.records.store import read_run, read_table
 
 from conftest import card, integrate, within
 from references import HBARC2_PB, ew_fermion_pair_sigma
@@ -113,8 +113,8 @@ def test_drell_yan_records_partons_and_scales(drell_yan):
     subs = set(table.column("subprocess").to_pylist())
     assert "u ubar -> e- e+" in subs and "ubar u -> e- e+" in subs
     by = rec["cross_section"]["by_subprocess"]
-    assert sum(v["value_pb"] for v in by.values()) == pytest.approx(rec["events"]["sum_weights_pb"], rel=1e-9)
-    assert by["u ubar -> e- e+"]["value_pb"] > by["d dbar -> e- e+"]["value_pb"]  # two u valence quarks
+    assert sum(v["value"] for v in by.values()) == pytest.approx(rec["events"]["sum_weights"], rel=1e-9)
+    assert by["u ubar -> e- e+"]["value"] > by["d dbar -> e- e+"]["value"]  # two u valence quarks
 
 
 # --- W, Higgs, top pairs -------------------------------------------------------------------------
@@ -316,8 +316,8 @@ def test_groups_need_hadron_beams():
 def test_hadron_parts_merge_with_subprocess_counts(tmp_path):
     """Three batch parts of a W card merge into one sample whose per-subprocess event counts add up
     and whose sigma agrees with the single-run grid (book-keeping; common practice, no source)."""
-    from gen.batch import merge
-    from gen.grid import make_grid
+    from gen.jobs.batch import merge
+    from gen.sampling.grid import make_grid
 
     cfg = parse_card(hadron_card("electroweak", ["l+", "nu"], "[cuts]\nmass_min = 60.0",
                                  "events = 3000\nweighted_events = 0\nseed = 5"), "w.toml")
@@ -331,8 +331,8 @@ def test_hadron_parts_merge_with_subprocess_counts(tmp_path):
     assert sum(v["events"] for v in by.values()) == 3000 == table.num_rows
     counts = {k: v for k, v in zip(*np.unique(table.column("subprocess").to_numpy(zero_copy_only=False), return_counts=True))}
     assert {k: v["events"] for k, v in by.items()} == counts
-    assert sum(v["value_pb"] for v in by.values()) == pytest.approx(rec["cross_section"]["total"]["value_pb"], rel=1e-12)
-    assert within(rec["cross_section"]["total"]["value_pb"], rec["cross_section"]["total"]["error_pb"],
+    assert sum(v["value"] for v in by.values()) == pytest.approx(rec["cross_section"]["total"]["value"], rel=1e-12)
+    assert within(rec["cross_section"]["total"]["value"], rec["cross_section"]["total"]["error"],
                   grid.cross_section.value, k=5)
 
 

@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 import sympy
 
-from gen.matrix import MODELS
-from gen.matrix import electroweak, qed
+from gen.physics.matrix import MODELS
+from gen.physics.matrix import electroweak, qed
 
 hm = pytest.importorskip("equation_database.isbn_9780471887416")  # Halzen & Martin (1984)
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import pytest
 
-from gen.particles import SCALAR_ID, known_names, species
+from gen.physics.particles import SCALAR_ID, known_names, species
 
 particle = pytest.importorskip("particle")
 

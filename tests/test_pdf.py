@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from gen import pdf
+from gen.physics import pdf
 
 # hep-ph/0204316, Table 2 (LO, variable flavour), parts 1 and 3; the x grid and the values as
 # published (copied from the shared reference file; "L_p" carries the factor 2 the table heading omits).

@@ -8,7 +8,8 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from gen.phasespace import MassMap, massless_volume, rambo, sequential
+from gen.physics.kinematics import BreitWignerMap, PowerMap
+from gen.physics.phasespace import massless_volume, rambo, sequential
 
 RNG = np.random.default_rng(99)
 
@@ -69,8 +70,7 @@ def _dalitz_volume(big_m, m1, m2, m3):
     return quad(span, (m1 + m2) ** 2, (big_m - m3) ** 2, epsrel=1e-11)[0] / (128 * math.pi**3 * big_m**2)
 
 
-@pytest.mark.parametrize("maps", [None, [MassMap("breit-wigner", mass=5.0, width=0.5)], [MassMap("power", nu=1.0)],
-                                  [MassMap("power", nu=2.0)]])
+@pytest.mark.parametrize("maps", [None, [BreitWignerMap(5.0, 0.5)], [PowerMap(1.0)], [PowerMap(2.0)]])
 def test_massive_three_body_against_the_dalitz_area(maps):
     ms = [1.0, 2.0, 3.0]
     exact = _dalitz_volume(10.0, *ms)

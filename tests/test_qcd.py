@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 import sympy
 
-from gen.matrix.qcd import CHANNELS
+from gen.physics.matrix.qcd import CHANNELS
 
 esw = pytest.importorskip("equation_database.isbn_9780511628788")
 

@@ -10,8 +10,8 @@ from scipy.stats import chi2
 import gen
 from gen.card import parse_card
 from gen.progress import Progress
-from gen.run import ConsistencyWarning
-from gen.sampler import CrossSection, _combine
+from gen.jobs.run import ConsistencyWarning
+from gen.sampling.sampler import CrossSection, _combine
 
 from conftest import card
 

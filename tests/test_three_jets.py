@@ -12,7 +12,7 @@ from scipy.integrate import dblquad
 
 import gen
 from gen.card import parse_card
-from gen.matrix.qcd import make_three_jet
+from gen.physics.matrix.qcd import make_three_jet
 
 from conftest import card, integrate
 

@@ -14,8 +14,8 @@ import pytest
 
 import gen
 from gen.card import parse_card
-from gen.matrix import MODELS
-from gen.matrix.registry import ProcessSpec
+from gen.physics.matrix import MODELS
+from gen.physics.matrix.registry import ProcessSpec
 from gen.validate import validate
 
 from conftest import card
@@ -82,7 +82,7 @@ def test_weights_scaled_by_two_fail(tmp_path):
         pq.write_table(doubled.replace_schema_metadata({**doubled.schema.metadata, b"gen.run": meta[b"gen.run"]}), target)
         report = validate(target, plots=False)
         assert report["verdict"] == "fail" and not report["cross_section"]["pass"]
-        assert report["cross_section"]["sample_pb"] == pytest.approx(2 * report["cross_section"]["reference_pb"], rel=1e-2)
+        assert report["cross_section"]["sample"] == pytest.approx(2 * report["cross_section"]["reference"], rel=1e-2)
         # the same file unscaled passes: the failure is the factor 2
         assert validate(f, plots=False)["verdict"] == "pass"
 

@@ -4,11 +4,13 @@ from __future__ import annotations
 
 import pytest
 
-from gen.constants import G_FERMI
-from gen.particles import species
-from gen.widths import branching_ratios, muon_decay, partial_widths, top_to_bw, w_to_ff, z_to_ff
-
 import scipy.constants as sc
+
+from gen.physics.constants import g_fermi
+from gen.physics.particles import species
+from gen.physics.widths import branching_ratios, muon_decay, partial_widths, top_to_bw, w_to_ff, z_to_ff
+
+G_FERMI = g_fermi()
 
 HBAR_GEV_S = sc.hbar / sc.e * 1e-9  # hbar in GeV s (CODATA, via scipy.constants)
 M_Z, M_W = 91.1876, 80.3692  # PDG (shared check values; m_W from arXiv:2308.09417)

@@ -1,0 +1,33 @@
+"""Processes: a validated card turned into an integrand on the unit hypercube and the means to
+make its events, behind one declared interface (`gen.processes.interface.Process`)."""
+
+from __future__ import annotations
+
+from ..card import RunConfig
+from .interface import CannotValidate, Channel, EventData, Measure, ParticleLayout, Process, ValidationPlan
+
+__all__ = ["build_process", "Process", "Channel", "Measure", "EventData", "ParticleLayout", "ValidationPlan",
+           "CannotValidate"]
+
+
+def build_process(cfg: RunConfig) -> Process:
+    """The process of a validated card (raises CardError where the phase space cannot be built):
+    a `TwoToTwo` or `ManyBody` at fixed beam energies, a `DecayAtRest`, or a `HadronCollision`,
+    wrapped in `WithDecays` when the card decays particles."""
+    if cfg.hadron_beams:
+        from .hadron import HadronCollision
+
+        proc: Process = HadronCollision(cfg)
+    elif cfg.at_rest:
+        from .at_rest import DecayAtRest
+
+        proc = DecayAtRest(cfg)
+    else:
+        from .fixed_beams import ManyBody, TwoToTwo
+
+        proc = ManyBody(cfg) if len(cfg.outgoing) > 2 else TwoToTwo(cfg)
+    if cfg.resolved.decays:
+        from .decays import WithDecays
+
+        return WithDecays(proc)
+    return proc

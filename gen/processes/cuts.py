@@ -1,0 +1,59 @@
+"""The card's cuts on laboratory momenta, applied to arrays of events."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ..card import CUT_DEFAULTS, RunConfig
+from ..physics.kinematics import azimuth, delta_r, mass, pseudorapidity, pt, rapidity
+
+__all__ = ["Cuts"]
+
+
+class Cuts:
+    """The cuts of a card on the outgoing particles it selects (`cuts.particles`, default all)."""
+
+    def __init__(self, cfg: RunConfig):
+        self.values = dict(cfg.cuts)
+        self.selected = [i for i, sp in enumerate(cfg.outgoing)
+                         if "particles" not in cfg.cuts or sp.name in cfg.cuts["particles"]]
+        self.active = any(v != CUT_DEFAULTS[k] for k, v in self.values.items() if k != "particles")
+
+    def mask(self, out: np.ndarray) -> np.ndarray:
+        """True for events whose outgoing laboratory momenta out (N, n, 4) pass the cuts."""
+        c = self.values
+        ok = np.ones(out.shape[0], dtype=bool)
+        if not self.active:
+            return ok
+        sel = out[:, self.selected, :]
+        e = sel[..., 0]
+        p_t = pt(sel)
+        if c["theta_min_deg"] > 0.0 or c["theta_max_deg"] < 180.0:
+            pabs = np.hypot(p_t, sel[..., 3])
+            cos_t = np.divide(sel[..., 3], pabs, out=np.ones_like(pabs), where=pabs > 0)
+            ok &= np.all((cos_t <= math.cos(math.radians(c["theta_min_deg"])))
+                         & (cos_t >= math.cos(math.radians(c["theta_max_deg"]))), axis=1)
+        if c["energy_min"] > 0.0 or c["energy_max"] < math.inf:
+            ok &= np.all((e >= c["energy_min"]) & (e <= c["energy_max"]), axis=1)
+        if c["pt_min"] > 0.0 or c["pt_max"] < math.inf:
+            ok &= np.all((p_t >= c["pt_min"]) & (p_t <= c["pt_max"]), axis=1)
+        if c["mass_min"] > 0.0 or c["mass_max"] < math.inf:
+            m = mass(sel.sum(axis=1))
+            ok &= (m >= c["mass_min"]) & (m <= c["mass_max"])
+        pairs = [(i, j) for i in range(len(self.selected)) for j in range(i + 1, len(self.selected))]
+        if c["pair_mass_min"] > 0.0:
+            for i, j in pairs:
+                ok &= mass(sel[:, i] + sel[:, j]) >= c["pair_mass_min"]
+        if c["eta_max"] < math.inf or c["delta_r_min"] > 0.0:
+            eta = np.nan_to_num(pseudorapidity(sel), nan=np.inf)  # along the beam: +-inf; nan counts as outside
+            if c["eta_max"] < math.inf:
+                ok &= np.all(np.abs(eta) <= c["eta_max"], axis=1)
+            if c["delta_r_min"] > 0.0:
+                phi = azimuth(sel)
+                for i, j in pairs:
+                    ok &= delta_r(eta[:, i], phi[:, i], eta[:, j], phi[:, j]) >= c["delta_r_min"]
+        if c["rapidity_max"] < math.inf:
+            ok &= np.all(np.abs(np.nan_to_num(rapidity(sel), nan=np.inf)) <= c["rapidity_max"], axis=1)
+        return ok

@@ -1,0 +1,227 @@
+"""The Parquet store: the streaming writer that publishes only complete files, and the readers.
+
+Files are written row group by row group under a new hidden temporary name (created exclusively,
+see `gen.files`) and renamed into place only when complete, with the run record in the file's
+key-value metadata. Readers check that a file is a gen event file and that its run record holds
+what the commands rely on, and name the file and the key when it does not.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from ..errors import OutputError
+from ..files import temporary_beside
+from .schema import arrow_schema, metadata_key
+
+__all__ = ["EventWriter", "read_table", "read_momenta", "read_run", "event_files", "DICTIONARY_COLUMNS"]
+
+#: the columns worth dictionary-encoding (integers and strings; encoding floats made writing 1.5x slower)
+DICTIONARY_COLUMNS = ["subprocess", "particles.list.particle.role", "particles.list.particle.pdg"]
+
+
+class EventWriter:
+    """Streams record batches into a Parquet file; the file appears only when `publish` runs.
+
+    Use as a context manager: leaving the block by an exception removes the temporary file, so a
+    failed or killed run leaves nothing that looks like a complete file. `finish` completes the
+    temporary file; `publish` renames it into place, so that several files of one run can appear
+    together (see `gen.jobs.run`); `abort` removes an unpublished file.
+    """
+
+    def __init__(self, path: str | Path, row_group_events: int, schema: pa.Schema | None = None):
+        self.path = Path(path)
+        self.schema = schema or arrow_schema()
+        self.row_group = row_group_events
+        self._pending: list[pa.RecordBatch] = []
+        self._pending_rows = 0
+        self.rows = 0
+        self.sum_w = 0.0
+        self.max_w = 0.0
+        self._finished = self._published = False
+        self._writer = None
+        self._sink = None
+        self.tmp: Path | None = None
+        try:
+            fd, self.tmp = temporary_beside(self.path)
+            self._sink = os.fdopen(fd, "wb", buffering=1 << 20)
+            self._writer = pq.ParquetWriter(self._sink, self.schema, compression="snappy",
+                                            use_dictionary=DICTIONARY_COLUMNS, write_statistics=["event_id", "weight"])
+        except OSError as exc:
+            self.abort()
+            raise OutputError(f"{self.path}: cannot write the event file: {exc.strerror or exc}") from None
+
+    def write(self, batch: pa.RecordBatch) -> None:
+        if batch.num_rows == 0:
+            return
+        w = batch.column(1).to_numpy()
+        self.sum_w += float(w.sum())
+        self.max_w = max(self.max_w, float(w.max()))
+        self._pending.append(batch)
+        self._pending_rows += batch.num_rows
+        self.rows += batch.num_rows
+        if self._pending_rows >= self.row_group:
+            self._flush()
+
+    def _flush(self) -> None:
+        if self._pending:
+            table = pa.Table.from_batches(self._pending, schema=self.schema)
+            try:
+                self._writer.write_table(table, row_group_size=max(self._pending_rows, 1))
+            except OSError as exc:
+                raise OutputError(f"{self.path}: writing failed: {exc.strerror or exc}") from None
+            self._pending, self._pending_rows = [], 0
+
+    def finish(self, record: dict[str, Any]) -> None:
+        """Write the run record and close the (still temporary) file."""
+        self._flush()
+        try:
+            self._writer.add_key_value_metadata({metadata_key(): json.dumps(record, default=_jsonable, allow_nan=False)})
+            self._writer.close()
+            self._sink.close()
+        except OSError as exc:
+            raise OutputError(f"{self.path}: writing failed: {exc.strerror or exc}") from None
+        self._writer = self._sink = None
+        self._finished = True
+
+    def publish(self) -> Path:
+        """Rename the finished file into place (atomic on one file system)."""
+        try:
+            os.replace(self.tmp, self.path)
+        except OSError as exc:
+            raise OutputError(f"{self.path}: cannot move the finished file into place: {exc.strerror or exc}") from None
+        self._published = True
+        return self.path
+
+    def abort(self) -> None:
+        if self._published:
+            return
+        for closable in (self._writer, self._sink):
+            if closable is not None:
+                try:
+                    closable.close()
+                except Exception:  # the file is discarded either way
+                    pass
+        self._writer = self._sink = None
+        if self.tmp is not None:
+            self.tmp.unlink(missing_ok=True)
+
+    def __enter__(self) -> "EventWriter":
+        return self
+
+    def __exit__(self, exc_type, exc, tb) -> None:
+        if exc_type is not None or not self._finished:
+            self.abort()
+
+
+def _jsonable(obj):
+    if isinstance(obj, (np.floating, np.integer)):
+        return obj.item()
+    if isinstance(obj, np.ndarray):
+        return obj.tolist()
+    raise TypeError(f"cannot store {type(obj).__name__} in the run record")
+
+
+def event_files(path: str | Path) -> list[Path]:
+    """The event files at a path: the file itself, or the .parquet files of a run folder."""
+    p = Path(path)
+    if p.is_dir():
+        files = sorted(f for f in p.glob("*.parquet") if not f.name.startswith("."))
+        if not files:
+            raise OutputError(f"{p}: no event files (*.parquet) in this folder")
+        return files
+    if not p.exists():
+        raise OutputError(f"{p}: no such file or folder")
+    return [p]
+
+
+#: what every run record must hold for the commands to use it: key path -> accepted types
+_RECORD_KEYS: dict[tuple[str, ...], tuple[type, ...]] = {
+    ("schema_version",): (str,), ("weighting",): (str,), ("card", "text"): (str,), ("card", "path"): (str,),
+    ("process", "label"): (str,), ("collider", "sqrt_s_GeV"): (int, float),
+    ("cross_section", "total", "value"): (int, float), ("cross_section", "total", "error"): (int, float),
+    ("events", "count"): (int,), ("events", "sum_weights"): (int, float), ("job", "count"): (int,),
+    ("measure", "unit"): (str,), ("seed",): (int,),
+}
+
+
+def _check_record(p: Path, rec: Any) -> dict:
+    if not isinstance(rec, dict):
+        raise OutputError(f"{p}: the run record is not a JSON object")
+    version = rec.get("schema_version")
+    if isinstance(version, str) and version.split(".")[0] != "2":
+        raise OutputError(f"{p}: written with schema {version}; this gen reads schema 2 files (rerun the card to "
+                          "write the sample again)")
+    for path, kinds in _RECORD_KEYS.items():
+        node: Any = rec
+        for k in path:
+            node = node.get(k) if isinstance(node, dict) else None
+        if isinstance(node, bool) or not isinstance(node, kinds) or (isinstance(node, float) and not math.isfinite(node)):
+            raise OutputError(f"{p}: the run record's {'.'.join(path)} is {node!r}; expected "
+                              f"{' or '.join(k.__name__ for k in kinds)} (the file's metadata is damaged)")
+    if rec["weighting"] not in ("unweighted", "weighted"):
+        raise OutputError(f"{p}: the run record's weighting is {rec['weighting']!r}; expected 'unweighted' or 'weighted'")
+    job = rec.get("job", {})
+    if not (isinstance(job.get("index"), int) or (job.get("index") is None and "merged" in job)):
+        raise OutputError(f"{p}: the run record's job.index is {job.get('index')!r}; expected an integer")
+    return rec
+
+
+def read_run(path: str | Path) -> dict[str, Any]:
+    """The run record of an event file (cross-section, counts, card, parameters...), checked to
+    hold what the commands rely on."""
+    p = Path(path)
+    try:
+        meta = pq.read_metadata(p).metadata or {}
+    except (OSError, pa.ArrowException) as exc:
+        raise OutputError(f"{p}: not a readable Parquet file ({exc})") from None
+    key = metadata_key().encode()
+    if key not in meta:
+        raise OutputError(f"{p}: a Parquet file, but not a gen event file (no '{key.decode()}' metadata)")
+    try:
+        rec = json.loads(meta[key])
+    except (ValueError, RecursionError) as exc:
+        raise OutputError(f"{p}: the run record is not valid JSON ({exc}); the file's metadata is damaged") from None
+    return _check_record(p, rec)
+
+
+def read_table(path: str | Path, columns: list[str] | None = None) -> pa.Table:
+    """An event file as a pyarrow Table (checked to be a gen event file)."""
+    read_run(path)
+    try:
+        return pq.read_table(path, columns=columns)
+    except (OSError, pa.ArrowException) as exc:
+        raise OutputError(f"{path}: cannot read the events ({exc})") from None
+
+
+def read_momenta(path: str | Path, role: str | None = None) -> np.ndarray:
+    """Four-momenta as a float64 array of shape (N, n, 4), (E, px, py, pz) in GeV.
+
+    All events of a file have the same particle content; `role` ('incoming', 'outgoing', ...)
+    keeps only the particles of that role.
+    """
+    table = read_table(path, columns=["particles"])
+    parts = table.column("particles").combine_chunks()
+    n_events = len(parts)
+    flat = parts.flatten()
+    offsets = parts.offsets.to_numpy()
+    if n_events == 0:
+        return np.empty((0, 0, 4))
+    n = int(offsets[1] - offsets[0])
+    if not np.all(np.diff(offsets) == n):
+        raise OutputError(f"{path}: events have different numbers of particles; read the table instead")
+    cols = [flat.field(k).to_numpy(zero_copy_only=False) for k in ("e", "px", "py", "pz")]
+    mom = np.stack(cols, axis=-1).reshape(n_events, n, 4)
+    if role is not None:
+        roles = flat.field("role").slice(0, n).to_pylist()
+        keep = [i for i, r in enumerate(roles) if r == role]
+        mom = mom[:, keep, :]
+    return mom
