@@ -117,7 +117,7 @@ PARTICLE_VALUE = Key(NUMBER, None, 0.0, 1e5, "GeV", "", default_doc="PDG")
 DECAY_KEYS: dict[str, Key] = {
     "into": Key(list, required=True, doc="the two particles it decays into"),
     "branching_ratio": Key(NUMBER, None, 0.0, 1.0, "", "its branching ratio", lo_open=True,
-                           default_doc="tree-level partial widths"),
+                           default_doc="tree-level widths (Z, W, t); SM table (H)"),
     "window": Key(NUMBER, 10.0, 0.0, 1e6, "widths", "half-width of the Breit-Wigner mass window, in widths", lo_open=True),
 }
 
@@ -592,8 +592,9 @@ def _hadron_kinematics(d: _Draft) -> None:
 
 @_rule("[decays.<particle>] decays a particle the process makes (or a decay product makes) into two particles "
        "that conserve charge, lepton number of each generation and quark number, with colour lines gen can draw "
-       "(a colour singlet into two singlets or a quark pair, a quark into a quark and a singlet); the products are "
-       "lighter than the parent; the branching ratio comes from the card or from gen's width tables.")
+       "(a colour singlet into two singlets, a quark pair or two gluons, a quark into a quark and a singlet); the "
+       "products are lighter than the parent; the branching ratio comes from the card, from the tree-level widths "
+       "(Z, W, t) or from the Standard-Model table at m_H = 125.09 +- 0.5 GeV (H).")
 def _decays(d: _Draft) -> None:
     raw = d.doc.get("decays")
     if raw is None:
@@ -639,10 +640,12 @@ def _decays(d: _Draft) -> None:
         br, source = table.get("branching_ratio"), "card"
         if br is None:
             br, channels = _widths.branching_ratio(parent, tuple(table["into"]), dict(ew, m_t=_decay_mass(d, "t", ew)))
-            source = "tree-level partial widths"
+            source = "Standard-Model table (CERN Yellow Report 4)" if parent == "H" else "tree-level partial widths"
             if br is None and not channels:
-                raise d.error(f"decays.{parent}.branching_ratio", f"gen has no width table for {parent}; give the "
-                              "branching ratio")
+                why = (f"gen's Higgs branching ratios are the Standard-Model ones at m_H = "
+                       f"{_widths.HIGGS_TABLE_MASS} GeV and this card's m_H is {ew['m_H']:g} GeV" if parent == "H"
+                       else f"gen has no width table for {parent}")
+                raise d.error(f"decays.{parent}.branching_ratio", f"{why}; give the branching ratio")
             if br is None:
                 raise d.error(f"decays.{parent}.into", f"{parent} -> {' '.join(table['into'])} is not in gen's width "
                               f"table ({', '.join(channels)}); give decays.{parent}.branching_ratio to use it anyway")
@@ -665,10 +668,10 @@ def _conservation(d: _Draft, key: str, parent: Species, products: tuple[Species,
     if sum(p.quark_number for p in products) != parent.quark_number:
         raise d.error(f"{key}.into", f"{parent.name} -> {names} does not conserve quark number")
     reps = sorted(abs(p.colour) for p in products)
-    drawable = reps in ([1, 1], [3, 3]) if parent.colour == 1 else (abs(parent.colour) == 3 and reps == [1, 3])
+    drawable = reps in ([1, 1], [3, 3], [8, 8]) if parent.colour == 1 else (abs(parent.colour) == 3 and reps == [1, 3])
     if not drawable:
-        raise d.error(f"{key}.into", f"gen draws colour lines for a colour singlet into two singlets or a quark pair, "
-                      f"and for a quark into a quark and a singlet; {parent.name} -> {names} is neither")
+        raise d.error(f"{key}.into", f"gen draws colour lines for a colour singlet into two singlets, a quark pair or "
+                      f"two gluons, and for a quark into a quark and a singlet; {parent.name} -> {names} is none of them")
 
 
 def _electroweak_for_decays(d: _Draft) -> dict[str, Any]:

@@ -21,9 +21,18 @@ from .version import __version__
 __all__ = ["main", "parser"]
 
 
+_PB_SCALES = (("b", 1e12), ("mb", 1e9), ("µb", 1e6), ("nb", 1e3), ("pb", 1.0), ("fb", 1e-3), ("ab", 1e-6))
+
+
 def _fmt_value(value: float, error: float, unit: str) -> str:
+    """value ± error unit (relative error), and for a cross-section far from 1 pb the same in the
+    unit that makes it readable (0.25614 b for 2.5614e+11 pb)."""
     rel = f"{100 * error / value:.3g}%" if value else "n/a"
-    return f"{value:.6g} ± {error:.3g} {unit}  ({rel})"
+    text = f"{value:.6g} ± {error:.3g} {unit}  ({rel})"
+    if unit == "pb" and value > 0 and not 1e-1 <= value < 1e4:
+        name, scale = next(((n, f) for n, f in _PB_SCALES if value >= 0.1 * f), _PB_SCALES[-1])
+        text += f"  = {value / scale:.6g} {name}"
+    return text
 
 
 def _measure_line(rec: dict, value: float, error: float) -> str:
@@ -36,8 +45,11 @@ def _measure_line(rec: dict, value: float, error: float) -> str:
 
 
 def _print_warnings(caught) -> None:
+    from .errors import GenWarning
+
     for w in caught:
-        print(f"gen: warning: {w.message}", file=sys.stderr)
+        if issubclass(w.category, GenWarning):
+            print(f"gen: warning: {printable(str(w.message))}", file=sys.stderr)
 
 
 def _cmd_adapt(args) -> int:
@@ -49,10 +61,7 @@ def _cmd_adapt(args) -> int:
     cfg = load_card(args.card).with_overrides(seed=args.seed)
     proc = build_process(cfg)
     progress = Progress(enabled=None if not args.quiet else False)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        grid = make_grid(proc, cfg, progress)
-    _print_warnings(caught)
+    grid = make_grid(proc, cfg, progress)
     path = grid.save(args.output)
     if not args.quiet:
         xs, m = grid.cross_section, proc.measure
@@ -110,36 +119,31 @@ def _cmd_run(args) -> int:
         print(f"gen {__version__} ▸ {' '.join(p.name for p in cfg.incoming)} → "
               f"{' '.join(p.name for p in cfg.outgoing)}  [{cfg.model}]  card {cfg.source}")
     progress = Progress(enabled=None if show else False)
-    with warnings.catch_warnings(record=True) as caught:
-        warnings.simplefilter("always")
-        if args.job is None and jobs == 1 and not distributed and grid is None:
-            res = run(cfg, progress=progress, process=proc)
-            _print_warnings(caught)
-            if show:
+    if args.job is None and jobs == 1 and not distributed and grid is None:
+        res = run(cfg, progress=progress, process=proc, replace=args.force)
+        if show:
+            _report_run(res)
+        return 0
+    if args.job is not None:
+        res = run(cfg, progress=progress, grid=grid, job=args.job, jobs=jobs, process=proc, replace=args.force)
+        if show:
+            if res.skipped:
+                print(f"  part {args.job} of {jobs} is already complete in {folder}; skipped")
+            else:
                 _report_run(res)
-            return 0
-        if args.job is not None:
-            res = run(cfg, progress=progress, grid=grid, job=args.job, jobs=jobs, process=proc)
-            _print_warnings(caught)
-            if show:
-                if res.skipped:
-                    print(f"  part {args.job} of {jobs} is already complete in {folder}; skipped")
-                else:
-                    _report_run(res)
-            return 0
-        grid, grid_path = _grid_for_parts(cfg, proc, args, folder, progress)
-        if distributed:
-            from .jobs.distributed import run_parts_on_dask
+        return 0
+    grid, grid_path = _grid_for_parts(cfg, proc, args, folder, progress)
+    if distributed:
+        from .jobs.distributed import run_parts_on_dask
 
-            done = run_parts_on_dask(cfg, grid_path, jobs, folder, workers=args.workers, scheduler=args.scheduler,
-                                     overrides=overrides, progress=progress)
-            skipped = sum(d["skipped"] for d in done)
-        else:
-            skipped = 0
-            for j in range(jobs):
-                res = run(cfg, progress=progress, grid=grid, job=j, jobs=jobs, process=proc)
-                skipped += res.skipped
-        _print_warnings(caught)
+        done = run_parts_on_dask(cfg, grid_path, jobs, folder, workers=args.workers, scheduler=args.scheduler,
+                                 overrides=overrides, progress=progress, replace=args.force)
+        skipped = sum(d["skipped"] for d in done)
+    else:
+        skipped = 0
+        for j in range(jobs):
+            res = run(cfg, progress=progress, grid=grid, job=j, jobs=jobs, process=proc, replace=args.force)
+            skipped += res.skipped
     if show:
         print(f"  parts       {jobs} in {folder} ({skipped} already complete, skipped); grid {grid_path}")
         _report_combined(folder)
@@ -159,8 +163,19 @@ def _report_run(res) -> None:
         print(f"  unweighted  {st.accepted} events, efficiency {st.efficiency:.1%}, "
               f"{st.overflow_events} above w_max carrying {st.overflow_share:.2%} of the total "
               f"(sampling pass: {est:.6g} ± {err:.2g} {unit})")
+    couplings = rec["parameters"].get("couplings", {})
+    if couplings:
+        print("  couplings   " + ", ".join(f"{k} = {v:.6g}" for k, v in couplings.items()))
     for f in res.files:
         print(f"  wrote       {f}")
+    if res.summary:
+        t = res.summary["timing"]
+        rate = res.summary.get("events_per_s")
+        job = res.summary["job"]["index"]
+        name = "summary.txt" if res.summary["kind"] == "run" else f"summary-part{job:05d}.txt"
+        print(f"  summary     {res.folder / name}")
+        print(f"  time        {t['total_s']:.2f} s in all (adaptation {t['adaptation_s']:.2f} s)"
+              + (f", {rate:.4g} events/s" if rate else ""))
 
 
 def _report_combined(folder) -> None:
@@ -183,7 +198,8 @@ def _cmd_merge(args) -> int:
     from .jobs.batch import merge
     from .progress import Progress
 
-    files, combined = merge(args.parts, args.output, Progress(enabled=None if not args.quiet else False))
+    files, combined = merge(args.parts, args.output, Progress(enabled=None if not args.quiet else False),
+                            replace=args.force)
     if not args.quiet:
         if combined:
             unit = combined.get("unit", "pb")
@@ -334,6 +350,10 @@ def _cmd_processes(args) -> int:
 
         raise UserError(f"--model {args.model!r} is not a model" + close_matches(args.model, MODELS)
                         + "; models: " + ", ".join(MODELS))
+    homes: dict[str, list[str]] = {}
+    for name, model in MODELS.items():
+        for spec in model.processes:
+            homes.setdefault(spec.label, []).append(name)
     for name, model in MODELS.items():
         if args.model and name != args.model:
             continue
@@ -344,27 +364,29 @@ def _cmd_processes(args) -> int:
             partonic = [s for s in partonic if wanted in s.incoming + s.outgoing]
             if not fixed and not partonic:
                 continue
-        print(f"{name}: {model.doc}")
+        couplings = ", ".join(model.couplings)
+        print(f"{name}: {model.doc}" + (f" Couplings: {couplings}." if couplings else ""))
         for spec in fixed:
             sym = "  (identical final particles: factor 1/2)" if spec.symmetry != 1 else ""
             cut = ("  [needs cuts away from the soft and collinear regions]" if len(spec.outgoing) > 2
                    else "  [needs cuts away from the beam axis]") if spec.needs_angular_cut else ""
-            print(f"    {spec.label}{sym}{cut}")
+            also = [m for m in homes[spec.label] if m != name]
+            other = f"  (also in {', '.join(also)}, with its own couplings)" if also else ""
+            print(f"    {spec.label}{sym}{cut}{other}")
         if partonic:
-            finals = sorted({" ".join(_grouped(s.outgoing, GROUPS)) for s in partonic})
+            finals: dict[tuple, str] = {}
+            for s in partonic:
+                shown = _grouped(s.outgoing, GROUPS)
+                finals.setdefault(tuple(sorted(shown)), " ".join(shown))
             print(f"    with hadron beams (p p, p pbar; {len(partonic)} parton processes), outgoing: "
-                  + "; ".join(finals))
+                  + "; ".join(sorted(finals.values())))
         print("    parameters: " + ", ".join(model.params))
     return 0
 
 
 def _grouped(outgoing, groups) -> list[str]:
-    """Outgoing particle names, each replaced by the first group that holds it (jet for partons)."""
-    out = []
-    for p in outgoing:
-        home = next((g for g in ("jet", "l-", "l+", "nu", "nubar") if p in groups[g]), p)
-        out.append(home)
-    return sorted(out)
+    """Outgoing particle names, each replaced by the group a card would write (jet for partons)."""
+    return [next((g for g in ("jet", "l-", "l+", "nu", "nubar") if p in groups[g]), p) for p in outgoing]
 
 
 def parser() -> argparse.ArgumentParser:
@@ -389,11 +411,14 @@ def parser() -> argparse.ArgumentParser:
     r.add_argument("--jobs", type=int, help="number of parts the sample is split into")
     r.add_argument("--workers", type=int, help="make all parts on a local Dask cluster of this many workers")
     r.add_argument("--scheduler", help="make all parts on the Dask scheduler at this address")
+    r.add_argument("--force", action="store_true", help="replace an earlier run's files in the run folder (they are "
+                   "refused otherwise)")
     r.set_defaults(func=_cmd_run)
     m = sub.add_parser("merge", help="merge batch parts into one sample")
     m.add_argument("parts", nargs="+", help="part files or folders of parts")
     m.add_argument("-o", "--output", required=True, help="folder for the merged files")
     m.add_argument("--quiet", action="store_true", help="print nothing but warnings and errors")
+    m.add_argument("--force", action="store_true", help="replace an earlier sample in the output folder")
     m.set_defaults(func=_cmd_merge)
     v = sub.add_parser("validate", help="compare a sample with its analytic reference; exit 1 when it fails")
     v.add_argument("path", help="an event file or a run folder")
@@ -424,6 +449,15 @@ def parser() -> argparse.ArgumentParser:
 
 def main(argv: list[str] | None = None) -> int:
     args = parser().parse_args(argv)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        try:
+            return _dispatch(args)
+        finally:
+            _print_warnings(caught)
+
+
+def _dispatch(args) -> int:
     try:
         return args.func(args)
     except UserError as exc:

@@ -12,7 +12,7 @@ from __future__ import annotations
 import difflib
 from collections.abc import Iterable
 
-__all__ = ["GenError", "UserError", "CardError", "OutputError", "close_matches", "printable"]
+__all__ = ["GenError", "UserError", "CardError", "OutputError", "GenWarning", "close_matches", "printable"]
 
 
 class GenError(Exception):
@@ -36,6 +36,10 @@ class CardError(UserError):
 
 class OutputError(UserError):
     """An output file or folder that cannot be written or read as a `gen` event file."""
+
+
+class GenWarning(UserWarning):
+    """Base of the warnings `gen` gives on purpose (the command line prints them on stderr)."""
 
 
 def printable(text: str) -> str:

@@ -85,12 +85,6 @@ def test_info_on_a_foreign_parquet_file(tmp_path):
     assert r.returncode == 2 and "not a gen event file" in r.stderr
 
 
-@pytest.mark.parametrize("card", CARDS, ids=[c.stem for c in CARDS])
-def test_every_demo_card_runs(card, tmp_path):
-    assert main(["run", str(card), "-o", str(tmp_path), "--events", "2000", "--quiet"]) == 0
-    assert (tmp_path / "unweighted.parquet").exists() and (tmp_path / "weighted.parquet").exists()
-
-
 def test_adapt_parts_info_and_merge_through_the_command(tmp_path):
     card = Path(__file__).parent.parent / "cards" / "scalar-toy.toml"
     grid = tmp_path / "grid.json"

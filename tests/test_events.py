@@ -190,11 +190,22 @@ def test_a_failure_in_the_weighted_pass_publishes_neither_file(tmp_path, monkeyp
 
 
 def test_a_rerun_replaces_the_folder_contents_consistently(tmp_path):
+    """A run folder holds one run: a rerun into it is refused unless asked to replace it, and then
+    the earlier run's files (the weighted file it no longer makes, its validation folder) go."""
+    from gen.errors import OutputError
+    from gen.jobs.run import CARD_COPY
+
+    extras = {CARD_COPY, "summary.txt", "summary.json"}
     gen.run(parse_card(CASES["scalar"], "s.toml"), folder=tmp_path)
-    assert {p.name for p in tmp_path.iterdir()} == {UNWEIGHTED_FILE, WEIGHTED_FILE}
+    assert {p.name for p in tmp_path.iterdir()} == {UNWEIGHTED_FILE, WEIGHTED_FILE} | extras
+    (tmp_path / "validation").mkdir()
+    (tmp_path / "validation" / "unweighted.validation.json").write_text("{}")
     only_unweighted = CASES["scalar"].replace("weighted_events = 20000", "weighted_events = 0")
-    gen.run(parse_card(only_unweighted, "s.toml").with_overrides(seed=99), folder=tmp_path)
-    assert {p.name for p in tmp_path.iterdir()} == {UNWEIGHTED_FILE}
+    with pytest.raises(OutputError, match="holds the files of an earlier run .*--force"):
+        gen.run(parse_card(only_unweighted, "s.toml").with_overrides(seed=99), folder=tmp_path)
+    assert gen.read_run(tmp_path / UNWEIGHTED_FILE)["seed"] == 11  # untouched
+    gen.run(parse_card(only_unweighted, "s.toml").with_overrides(seed=99), folder=tmp_path, replace=True)
+    assert {p.name for p in tmp_path.iterdir()} == {UNWEIGHTED_FILE} | extras
     assert gen.read_run(tmp_path / UNWEIGHTED_FILE)["seed"] == 99
 
 

@@ -70,7 +70,7 @@ def test_record_sections_and_couplings(built):
     assert sections["collider"]["sqrt_s_GeV"] > 0
     assert set(sections["parameters"]["masses_GeV"]) == {p.name for p in proc.species}
     couplings = proc.couplings()
-    assert all(isinstance(v, float) and v > 0 for v in couplings.values())
+    assert couplings and all(isinstance(v, float) and np.isfinite(v) for v in couplings.values())
 
 
 def test_validation_is_a_plan_or_a_stated_reason(built):

@@ -39,6 +39,7 @@ GOOD = {
 MUMU = card("qed", ("e-", "e+"), ("mu-", "mu+"), "sqrt_s = 10.0", INTEG, SAMPLING)
 
 
+@pytest.mark.filterwarnings("ignore::gen.jobs.run.LowEfficiencyWarning")  # the three-parton card's small grid
 @pytest.mark.parametrize("name", list(GOOD))
 def test_validation_passes_on_good_samples(name, tmp_path):
     res = gen.run(parse_card(GOOD[name], f"{name}.toml"), folder=tmp_path)

@@ -16,6 +16,8 @@ from __future__ import annotations
 import contextlib
 import datetime as _dt
 import math
+import time
+import uuid
 from collections import defaultdict
 from dataclasses import dataclass
 from pathlib import Path
@@ -25,10 +27,11 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from ..errors import OutputError, UserError
+from ..files import stale_temporaries
 from ..progress import Progress
 from ..records.schema import arrow_schema
 from ..records.store import EventWriter, event_files, read_run
-from .run import by_subprocess, lifetime_s
+from .run import by_subprocess, claim_folder, clear_earlier_run, lifetime_s, write_summary
 
 __all__ = ["MergeError", "collect_parts", "check_parts", "combine", "merge"]
 
@@ -88,6 +91,13 @@ def check_parts(parts: dict[str, list[PartFile]]) -> list[str]:
             groups = "; ".join(f"{', '.join(names[:3])}{' ...' if len(names) > 3 else ''}" for names in seen.values())
             problems.append(f"different {what}: {groups}")
     jobs = first.record["job"]["count"]
+    run_of: dict[int, set] = defaultdict(set)
+    for pf in everything:
+        run_of[pf.job].add(pf.record.get("run_id"))
+    mixed = sorted(j for j, ids in run_of.items() if len(ids) > 1)
+    if mixed:
+        problems.append(f"the unweighted and weighted files of job(s) {mixed[:10]} come from different runs (an "
+                        "interrupted rerun?); rerun those parts")
     for kind, files in parts.items():
         idx = [pf.job for pf in files]
         dup = sorted({i for i in idx if idx.count(i) > 1})
@@ -136,17 +146,29 @@ def _rescaled(batch: pa.RecordBatch, weights: np.ndarray) -> pa.RecordBatch:
 
 
 def merge(paths: list[str | Path], out: str | Path, progress: Progress | None = None,
-          row_group_events: int = 200000) -> tuple[list[Path], dict]:
-    """Merge parts into `out`/unweighted.parquet and weighted.parquet; returns (files, combined)."""
+          row_group_events: int = 200000, replace: bool = False) -> tuple[list[Path], dict]:
+    """Merge parts into `out`/unweighted.parquet and weighted.parquet (with the folder's summary);
+    returns (files, combined). An output folder that holds another run's files is refused unless
+    `replace`."""
     progress = progress or Progress(enabled=False)
     parts = collect_parts(paths)
     problems = check_parts(parts)
     if problems:
         raise MergeError("the parts do not form one sample:\n  " + "\n  ".join(problems))
-    out = Path(out)
+    out = Path(out).expanduser()
     if out.exists() and not out.is_dir():
         raise OutputError(f"{out}: exists and is not a folder")
+    with claim_folder(out, None, replace):
+        for name in ("unweighted.parquet", "weighted.parquet", "summary.json", "summary.txt"):
+            for tmp in stale_temporaries(out, name):  # leftovers of a killed merge
+                tmp.unlink(missing_ok=True)
+        return _merge(parts, out, progress, row_group_events)
+
+
+def _merge(parts: dict[str, list[PartFile]], out: Path, progress: Progress, row_group_events: int):
+    t_start = time.monotonic()
     combined = combine(parts["unweighted"]) if "unweighted" in parts else None
+    run_id = uuid.uuid4().hex[:16]
     written: list[EventWriter] = []
     with contextlib.ExitStack() as stack:
         for kind, files in sorted(parts.items()):
@@ -173,7 +195,7 @@ def merge(paths: list[str | Path], out: str | Path, progress: Progress | None = 
                     wr.write(_rescaled(batch, w))
                     progress.update(wr.rows)
             progress.end(f"{wr.rows} events")
-            rec = dict(files[0].record)
+            rec = dict(files[0].record, run_id=run_id)
             rec["job"] = {"index": None, "count": files[0].record["job"]["count"], "merged": [pf.job for pf in files]}
             if combined:  # both files of the merged sample state the one combined result
                 rec["cross_section"] = dict(rec["cross_section"], total=dict(rec["cross_section"]["total"], **{
@@ -204,4 +226,26 @@ def merge(paths: list[str | Path], out: str | Path, progress: Progress | None = 
             wr.finish(rec)
             written.append(wr)
         files_out = [w.publish() for w in written]
+        clear_earlier_run(out, None, keep={w.path.name for w in written})
+    first = next(iter(parts.values()))[0].record
+    total = combined or first["cross_section"]["total"]
+    doc = {"run_id": run_id, "program": first["program"], "kind": "merge",
+           "job": {"index": 0, "count": first["job"]["count"]}, "card": first["card"]["path"],
+           "process": first["process"]["label"], "model": first["process"]["model"],
+           "sqrt_s_GeV": first["collider"]["sqrt_s_GeV"], "measure": rec["measure"],
+           "result": {"value": total["value"], "error": total["error"],
+                      "chi2_per_dof": first["cross_section"]["total"].get("chi2_per_dof", 0.0),
+                      "q": first["cross_section"]["total"].get("q", 1.0), "iterations": []},
+           "couplings": first["parameters"].get("couplings", {}), "seed": first["seed"],
+           "merged_from": {kind: [str(pf.path) for pf in files] for kind, files in parts.items()},
+           "files": {w.path.name: {"events": w.rows, "bytes": w.path.stat().st_size} for w in written},
+           "timing": {"total_s": round(time.monotonic() - t_start, 3)}, "events_per_s": None,
+           "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")}
+    if combined:
+        doc["unweighting"] = {"events": combined["events"], "trials": combined["sampling"]["trials"],
+                              "efficiency": combined["efficiency"], "overflow_events": combined["overflow_events"],
+                              "overflow_share": combined["overflow_share"],
+                              "sampling_estimate": combined["sampling"]["value"],
+                              "sampling_error": combined["sampling"]["error"]}
+    write_summary(out, None, doc, first["card"]["text"])
     return files_out, combined or {}

@@ -22,7 +22,8 @@ from ..sampling.grid import Grid
 __all__ = ["run_parts_on_dask", "local_cluster_config"]
 
 
-def _part_task(card_text: str, source: str, overrides: dict, grid_doc: str, job: int, jobs: int, folder: str) -> dict:
+def _part_task(card_text: str, source: str, overrides: dict, grid_doc: str, job: int, jobs: int, folder: str,
+               replace: bool = False) -> dict:
     """Run one part on a worker; returns what the driver reports."""
     import json
     import tempfile
@@ -34,7 +35,7 @@ def _part_task(card_text: str, source: str, overrides: dict, grid_doc: str, job:
         path = Path(tmp) / "grid.json"
         path.write_text(grid_doc, encoding="utf-8")
         grid = Grid.load(path)
-    res = run(cfg, folder=folder, grid=grid, job=job, jobs=jobs)
+    res = run(cfg, folder=folder, grid=grid, job=job, jobs=jobs, replace=replace)
     return {"job": job, "skipped": res.skipped, "files": [str(f) for f in res.files],
             "pid": os.getpid(), "grid": json.loads(grid_doc)["checksum"]}
 
@@ -51,7 +52,7 @@ def local_cluster_config() -> dict:
 
 def run_parts_on_dask(cfg, grid_path: Path, jobs: int, folder: Path, *, workers: int | None = None,
                       scheduler: str | None = None, overrides: dict | None = None,
-                      progress: Progress | None = None, client=None) -> list[dict]:
+                      progress: Progress | None = None, client=None, replace: bool = False) -> list[dict]:
     """Run parts 0..jobs-1 as Dask tasks; returns one summary per part, in job order.
 
     `client` is an already connected `dask.distributed.Client` to use instead of a new cluster.
@@ -82,7 +83,7 @@ def run_parts_on_dask(cfg, grid_path: Path, jobs: int, folder: Path, *, workers:
                 os.environ.pop("MALLOC_TRIM_THRESHOLD_", None)
         run_id = uuid.uuid4().hex[:12]  # a fresh key per call: Dask would hand back an earlier call's result
         futures = [client.submit(_part_task, cfg.text, cfg.source, overrides or {}, grid_doc, j, jobs,
-                                 str(Path(folder).resolve()), key=f"gen-part-{j:05d}-{run_id}", pure=False)
+                                 str(Path(folder).resolve()), replace, key=f"gen-part-{j:05d}-{run_id}", pure=False)
                    for j in range(jobs)]
         progress.stage("parts", jobs)
         done = []

@@ -3,8 +3,17 @@
 `run(cfg)` is the whole path behind `gen run`: it adapts a grid (or takes the one it is given),
 then samples it. A batch part (`job` = I of `jobs` = N) samples its share of the card's events
 from a shared grid without re-adapting, with random streams derived from the card's seed and I
-(`grid.streams`), and writes files named with its index. Files of a run appear together, only
-once every pass has succeeded.
+(`grid.streams`), and writes files named with its index.
+
+A run folder. Each run (or part) holds a lock while it writes (`.gen-lock-run`, or
+`.gen-lock-partIIIII`), so a second run into the same place is refused, not mixed in. Its event
+files are written under hidden temporary names and renamed into place only once every pass has
+succeeded; its summary (`summary.json`, or `summary-partIIIII.json`, with a human-readable
+`.txt` twin) is written last and lists the files with the run's id: it is the run's manifest,
+and `info`, `validate`, `plot` and `merge` take a folder's files only from such summaries. A run
+into a folder that holds another run's files is refused unless `replace` (`gen run --force`);
+then the earlier run's files, its summary and its validation and plot folders are removed, and
+nothing else. A rerun of a complete part is skipped.
 """
 
 from __future__ import annotations
@@ -12,29 +21,42 @@ from __future__ import annotations
 import contextlib
 import datetime as _dt
 import math
-from dataclasses import dataclass
+import shutil
+import time
+import uuid
+import warnings
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from ..card import CARD_SCHEMA_VERSION, RunConfig
-from ..errors import OutputError
-from ..files import stale_temporaries
+from ..errors import GenWarning, OutputError
+from ..files import FolderLock, LockHeld, stale_temporaries, write_atomically
 from ..physics.constants import hbar_gev_s
 from ..processes import Process, build_process
 from ..progress import Progress
 from ..records.events import JOB_STRIDE, RecordBuilder
 from ..records.schema import schema_doc
-from ..records.store import EventWriter, read_run
+from ..records.store import EventWriter, folder_contents, manifest_name, read_run, write_manifest
 from ..sampling.grid import ConsistencyWarning, Grid, make_grid, physics_digest, streams
 from ..sampling.sampler import CrossSection, MapSampler, UnweightingStats
 from ..version import __version__
 
-__all__ = ["run", "RunResult", "ConsistencyWarning", "UNWEIGHTED_FILE", "WEIGHTED_FILE", "default_folder",
-           "part_name", "part_sizes", "part_complete"]
+__all__ = ["run", "RunResult", "ConsistencyWarning", "LowEfficiencyWarning", "UNWEIGHTED_FILE", "WEIGHTED_FILE",
+           "default_folder", "part_name", "part_sizes", "part_complete", "CARD_COPY", "claim_folder",
+           "clear_earlier_run", "write_summary", "summary_text"]
 
 UNWEIGHTED_FILE = "unweighted.parquet"
 WEIGHTED_FILE = "weighted.parquet"
+#: the card as given, copied into every run folder
+CARD_COPY = "card.toml"
+#: below this unweighting efficiency a run warns and says what helps
+LOW_EFFICIENCY = 0.01
+
+
+class LowEfficiencyWarning(GenWarning):
+    """Most trials of the unweighting pass were rejected."""
 
 
 @dataclass
@@ -45,11 +67,12 @@ class RunResult:
     files: list[Path]
     record: dict
     skipped: bool = False
+    summary: dict = field(default_factory=dict)
 
 
 def default_folder(cfg: RunConfig) -> Path:
     if "folder" in cfg.output:
-        return Path(cfg.output["folder"])
+        return Path(cfg.output["folder"]).expanduser()
     return Path("gen-runs") / Path(cfg.source).stem
 
 
@@ -64,7 +87,7 @@ def part_sizes(total: int, jobs: int) -> list[int]:
     return [base + (1 if i < extra else 0) for i in range(jobs)]
 
 
-def _record(proc: Process, grid: Grid, job: int | None, jobs: int) -> dict:
+def _record(proc: Process, grid: Grid, job: int | None, jobs: int, run_id: str) -> dict:
     cfg = proc.cfg
     xs = grid.cross_section
     sections = proc.record_sections()
@@ -72,6 +95,7 @@ def _record(proc: Process, grid: Grid, job: int | None, jobs: int) -> dict:
     return {
         "schema_version": schema_doc()["version"],
         "program": f"gen {__version__}",
+        "run_id": run_id,
         "card": {"path": cfg.source, "text": cfg.text, "digest": physics_digest(cfg), "sampling": dict(cfg.sampling),
                  "schema_version": CARD_SCHEMA_VERSION},
         **sections,
@@ -116,28 +140,23 @@ def by_subprocess(labels, counts: np.ndarray, total: float, sums: np.ndarray | N
 
 
 def part_complete(folder: Path, cfg: RunConfig, grid: Grid, job: int, jobs: int) -> bool:
-    """True when part `job` of `jobs` is in `folder`, complete and made from this card and grid."""
+    """True when part `job` of `jobs` is in `folder`, finished (its summary lists its files) and
+    made from this card and grid."""
+    listed = {p.name for p in folder_contents(folder).files} if folder.is_dir() else set()
     for kind, total in (("unweighted", cfg.sampling["events"]), ("weighted", cfg.sampling["weighted_events"])):
-        path = folder / part_name(kind, job)
+        name = part_name(kind, job)
         if total == 0:
             continue
-        if not path.exists():
+        if name not in listed:
             return False
         try:
-            rec = read_run(path)
+            rec = read_run(folder / name)
         except OutputError:
             return False
-        if (rec.get("card", {}).get("digest") != physics_digest(cfg) or rec.get("grid", {}).get("checksum") != grid.checksum
-                or rec.get("job") != {"index": job, "count": jobs} or rec.get("card", {}).get("sampling") != cfg.sampling):
+        if (rec["card"].get("digest") != physics_digest(cfg) or rec.get("grid", {}).get("checksum") != grid.checksum
+                or rec["job"] != {"index": job, "count": jobs} or rec["card"].get("sampling") != cfg.sampling):
             return False
     return True
-
-
-def _remove_stale_partials(folder: Path, names: list[str]) -> None:
-    """Remove temporary files of these names left by processes that no longer run (a killed job)."""
-    for name in names:
-        for tmp in stale_temporaries(folder, name):
-            tmp.unlink(missing_ok=True)
 
 
 def _stream(writer: EventWriter, builder: RecordBuilder, proc: Process, rng, chunks, first_id: int, on_chunk):
@@ -160,26 +179,106 @@ def _stream(writer: EventWriter, builder: RecordBuilder, proc: Process, rng, chu
     return counts, sums
 
 
+def _earlier_run(out: Path, job: int | None) -> list[Path]:
+    """What an earlier run left in this unit's place: its event files (finished or not) and summary."""
+    names = [part_name(kind, job) for kind in ("unweighted", "weighted")]
+    base = manifest_name(job)
+    names += [base, base[:-5] + ".txt"]
+    return [out / n for n in names if (out / n).exists()]
+
+
+def clear_earlier_run(out: Path, job: int | None, keep: set[str]) -> None:
+    """Remove the earlier run's files of this unit that this run does not replace by name, and for
+    a whole run its validation and plot folders (their outputs described the earlier files)."""
+    for path in _earlier_run(out, job):
+        if path.name not in keep:
+            path.unlink(missing_ok=True)
+    if job is None:
+        for sub in ("validation", "plots"):
+            if (out / sub).is_dir():
+                shutil.rmtree(out / sub, ignore_errors=True)
+
+
 def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | None = None,
-        grid: Grid | None = None, job: int | None = None, jobs: int = 1, process: Process | None = None) -> RunResult:
-    """Integrate the card's process (or take `grid`) and write its event files.
+        grid: Grid | None = None, job: int | None = None, jobs: int = 1, process: Process | None = None,
+        replace: bool = False) -> RunResult:
+    """Integrate the card's process (or take `grid`) and write its event files and summary.
 
     With `job` given, write part `job` of `jobs` from the grid, skipping it when it is already
     complete in the folder. `process` is the card's process when the caller has built it already.
+    `replace` allows replacing another run's files in the folder (they are refused otherwise).
     """
+    t_start = time.monotonic()
     progress = progress or Progress(enabled=False)
-    out = Path(folder) if folder is not None else default_folder(cfg)
+    out = Path(folder).expanduser() if folder is not None else default_folder(cfg)
     if out.exists() and not out.is_dir():
         raise OutputError(f"{out}: exists and is not a folder; choose another output folder (gen run -o DIR)")
     proc = process or build_process(cfg)
-    if grid is None:
-        grid = make_grid(proc, cfg, progress)
-    else:
+    if grid is not None:
         grid.check_card(cfg, cfg.source)
         grid.check_process(proc, cfg.source)
+    with claim_folder(out, job, replace, lambda: _same_unfinished_part(out, cfg, job, jobs)):
+        if job is not None and grid is not None and part_complete(out, cfg, grid, job, jobs):
+            return RunResult(out, grid.cross_section, None, [], {}, skipped=True)
+        if grid is None:
+            grid = make_grid(proc, cfg, progress)
+        t_adapted = time.monotonic()
+        return _sample(cfg, proc, grid, out, job, jobs, progress, t_start, t_adapted)
+
+
+@contextlib.contextmanager
+def claim_folder(out: Path, job: int | None, replace: bool, may_redo=lambda: False):
+    """Hold the lock of one unit (a run, or part `job`) of a folder while it is written, and refuse
+    a folder that holds another run's files of that unit unless `replace` (or `may_redo()`: the
+    unfinished attempt of the same part)."""
+    try:
+        lock = FolderLock(out, "run" if job is None else f"part{job:05d}").acquire()
+    except LockHeld as exc:
+        raise OutputError(str(exc)) from None
+    except OSError as exc:
+        raise OutputError(f"{out}: cannot write the event files into this folder: {exc.strerror or exc}") from None
+    try:
+        earlier = _earlier_run(out, job)
+        if earlier and not replace and not may_redo():
+            raise OutputError(_occupied_message(out, earlier, job))
+        yield lock
+    finally:
+        lock.release()
+
+
+def _same_unfinished_part(out: Path, cfg: RunConfig, job: int | None, jobs: int) -> bool:
+    """A part whose earlier attempt (of this very card) did not finish is redone without --force."""
+    if job is None:
+        return False
+    for path in _earlier_run(out, job):
+        if path.suffix != ".parquet":
+            continue
+        try:
+            rec = read_run(path)
+        except OutputError:
+            return False
+        if rec["card"].get("digest") != physics_digest(cfg) or rec["job"].get("count") != jobs:
+            return False
+    return True
+
+
+def _occupied_message(out: Path, earlier: list[Path], job: int | None) -> str:
+    what = "part" if job is not None else "run"
+    described = ""
+    for path in earlier:
+        if path.suffix == ".parquet":
+            try:
+                rec = read_run(path)
+                described = f" (card {rec['card']['path']}, seed {rec['seed']}, created {rec.get('created', '?')})"
+            except OutputError:
+                described = " (unreadable)"
+            break
+    return (f"{out}: holds the files of an earlier {what}{described}: "
+            f"{', '.join(p.name for p in earlier)}; give --force to replace them, or choose another folder with -o")
+
+
+def _sample(cfg, proc, grid, out, job, jobs, progress, t_start, t_adapted) -> RunResult:
     xs = grid.cross_section
-    if job is not None and part_complete(out, cfg, grid, job, jobs):
-        return RunResult(out, xs, None, [], {}, skipped=True)
     samp = cfg.sampling
     index = 0 if job is None else job
     rng_unw, rng_w = streams(samp["seed"], index)
@@ -187,11 +286,15 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
     builder = RecordBuilder(proc.particle_layout(), proc.measure.unit)
     labels = builder.layout.subprocesses
     unit = proc.measure.unit
-    base = _record(proc, grid, job, jobs)
+    run_id = uuid.uuid4().hex[:16]
+    base = _record(proc, grid, job, jobs, run_id)
     names = {kind: part_name(kind, job) for kind in ("unweighted", "weighted")}
-    if out.is_dir():
-        _remove_stale_partials(out, list(names.values()))
+    manifest = manifest_name(job)
+    for name in [*names.values(), manifest, manifest[:-5] + ".txt", CARD_COPY]:
+        for tmp in stale_temporaries(out, name):  # leftovers of a killed earlier attempt
+            tmp.unlink(missing_ok=True)
     stats = None
+    timing = {"adaptation_s": t_adapted - t_start}
     rg = cfg.output["row_group_events"]
     now = lambda: _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")  # noqa: E731
     finished: list[EventWriter] = []
@@ -199,6 +302,7 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
     n_w = part_sizes(samp["weighted_events"], jobs)[index]
     with contextlib.ExitStack() as stack:  # any failure removes every unpublished file
         if n_unw > 0:
+            t0 = time.monotonic()
             stats = UnweightingStats(max_weight=grid.max_weight)
             weight = xs.value / samp["events"]
             progress.stage("unweight", n_unw)
@@ -212,7 +316,14 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
                            events={"count": wr.rows, "sum_weights": wr.sum_w, "max_weight": wr.max_w},
                            unweighting=stats.as_dict()))
             finished.append(wr)
+            timing["unweighted_s"] = time.monotonic() - t0
+            if stats.efficiency < LOW_EFFICIENCY:
+                warnings.warn(f"the unweighting efficiency is {stats.efficiency:.2%}: {stats.trials} trials for "
+                              f"{stats.accepted} events. Weighted events (sampling.weighted_events) need no rejection; "
+                              "a better adapted grid (more integration.warmup_iterations or points_per_iteration) "
+                              "raises the efficiency", LowEfficiencyWarning, stacklevel=2)
         if n_w > 0:
+            t0 = time.monotonic()
             progress.stage("weighted", n_w)
             wr = stack.enter_context(EventWriter(out / names["weighted"], rg, builder.schema))
             drawn = [0]
@@ -228,9 +339,80 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
                            events={"count": wr.rows, "trials": n_w, "sum_weights": wr.sum_w,
                                    "max_weight": wr.max_w}))
             finished.append(wr)
-        # the run's files appear together; a file of a kind this run did not make is stale
-        for name in names.values():
-            if all(w.path.name != name for w in finished):
-                (out / name).unlink(missing_ok=True)
+            timing["weighted_s"] = time.monotonic() - t0
+        # this run's files replace the earlier run's of the same names; the earlier run's other files
+        # (and its summary, which no longer describes this folder) go next; the new summary comes last
         files = [w.publish() for w in finished]
-    return RunResult(out, xs, stats, files, base)
+        clear_earlier_run(out, job, keep={w.path.name for w in finished})
+    timing["total_s"] = time.monotonic() - t_start
+    summary = _summary(cfg, proc, grid, base, stats, finished, timing, job, jobs)
+    write_summary(out, job, summary, cfg.text)
+    return RunResult(out, xs, stats, files, base, summary=summary)
+
+
+def _summary(cfg, proc, grid, base, stats, finished, timing, job, jobs) -> dict:
+    """The run's summary and manifest: the files it wrote with their run id, and its figures."""
+    xs = grid.cross_section
+    events = sum(w.rows for w in finished)
+    doc = {
+        "run_id": base["run_id"], "program": base["program"], "kind": "run" if job is None else "part",
+        "job": {"index": 0 if job is None else job, "count": jobs}, "card": cfg.source, "process": cfg.label,
+        "model": cfg.model, "sqrt_s_GeV": base["collider"]["sqrt_s_GeV"], "measure": base["measure"],
+        "result": xs.as_dict(), "grid": {"checksum": grid.checksum, "max_weight": grid.max_weight},
+        "couplings": base["parameters"]["couplings"], "seed": cfg.sampling["seed"],
+        "files": {w.path.name: {"events": w.rows, "bytes": w.path.stat().st_size} for w in finished},
+        "timing": {k: round(v, 3) for k, v in timing.items()},
+        "events_per_s": events / timing["total_s"] if timing["total_s"] > 0 else None,
+        "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds"),
+    }
+    if stats is not None:
+        est, err = stats.estimate
+        doc["unweighting"] = {"events": stats.accepted, "trials": stats.trials, "efficiency": stats.efficiency,
+                              "overflow_events": stats.overflow_events, "overflow_share": stats.overflow_share,
+                              "sampling_estimate": est, "sampling_error": err}
+    return doc
+
+
+def summary_text(doc: dict, iterations: str = "") -> str:
+    """The human-readable twin of a summary."""
+    m = doc["measure"]
+    res = doc["result"]
+    symbol = "Γ" if m["unit"] == "GeV" else "σ"
+    lines = [f"gen run summary  ·  {doc['process']}  [{doc['model']}]",
+             f"card        {doc['card']}",
+             f"{'at rest' if m['unit'] == 'GeV' else 'sqrt(s)':<11} {doc['sqrt_s_GeV']:.6g} GeV",
+             f"{symbol:<11} {res['value']:.6g} ± {res['error']:.3g} {m['unit']}   chi2/dof {res['chi2_per_dof']:.2f}, "
+             f"Q {res['q']:.2f}"]
+    if "lifetime_s" in m:
+        lines.append(f"lifetime    {m['lifetime_s']:.6g} ± {m['lifetime_error_s']:.2g} s")
+    if iterations:
+        lines += ["iterations", iterations]
+    if "unweighting" in doc:
+        u = doc["unweighting"]
+        lines.append(f"unweighting {u['events']} events from {u['trials']} trials, efficiency {u['efficiency']:.2%}, "
+                     f"{u['overflow_events']} above w_max ({u['overflow_share']:.2%} of the total)")
+    if doc.get("couplings"):
+        lines.append("couplings   " + ", ".join(f"{k} = {v:.6g}" for k, v in doc["couplings"].items()))
+    t = doc["timing"]
+    lines.append("timing      " + ", ".join(f"{k.removesuffix('_s')} {v:.2f} s" for k, v in t.items())
+                 + (f"; {doc['events_per_s']:.4g} events/s" if doc.get("events_per_s") else ""))
+    lines.append(f"seed        {doc['seed']}, job {doc['job']['index']} of {doc['job']['count']}, run id {doc['run_id']}")
+    for name, f in doc["files"].items():
+        lines.append(f"file        {name}: {f['events']} events, {f['bytes'] / 1e6:.3g} MB")
+    return "\n".join(lines) + "\n"
+
+
+def write_summary(out: Path, job: int | None, doc: dict, card_text: str) -> None:
+    """The card as given (once per folder), the text summary, then the JSON summary: the manifest, last."""
+    try:
+        card = out / CARD_COPY
+        if job is None or not card.exists():
+            write_atomically(card, card_text)
+        name = manifest_name(job)
+        iterations = "\n".join(f"  {i:>3}  {v:.6e} ± {e:.3e}" for i, (v, e) in enumerate(
+            [(it["value"], it["error"]) for it in doc["result"]["iterations"]], 1))
+        write_atomically(out / (name[:-5] + ".txt"), summary_text(doc, iterations))
+    except OSError as exc:
+        raise OutputError(f"{out}: cannot write the run summary: {exc.strerror or exc}") from None
+    write_manifest(out, name, doc)
+

@@ -1,9 +1,15 @@
-"""Tree-level partial widths (GeV) and branching ratios of Z, W, H, the top quark and the muon.
+"""Partial widths (GeV) and branching ratios of Z, W, H, the top quark and the muon.
 
-Inputs are G_F, masses and sin^2 theta_W as resolved by the electroweak model (`fermi` scheme by
-default). `alpha_s` > 0 multiplies hadronic Z and W widths by the first QCD correction
-(1 + alpha_s/pi); with the default 0 every width is the pure leading-order one. Decays into
-off-shell gauge bosons (H -> W W*, Z Z*) are not included.
+Z, W and t (and H -> f fbar) at tree level: inputs are G_F, masses and sin^2 theta_W as resolved
+by the electroweak model (`fermi` scheme by default). `alpha_s` > 0 multiplies hadronic Z and W
+widths by the first QCD correction (1 + alpha_s/pi); with the default 0 every width is the pure
+leading-order one.
+
+The Higgs boson's branching ratios are not a tree-level matter: its decays into b bbar and c cbar
+take the running quark masses and large QCD corrections, and W W*, Z Z*, g g and gamma gamma
+(a quarter of the total) are off-shell or loop-induced. The default branching ratios of a decaying
+Higgs boson are therefore the Standard-Model values of `HIGGS_BRANCHING_RATIOS` at the mass they
+were computed for; at another mass the card must give them.
 """
 
 from __future__ import annotations
@@ -99,20 +105,37 @@ def branching_ratios(widths: Mapping[str, float]) -> dict[str, float]:
     return {k: v / total for k, v in widths.items()}
 
 
+#: Standard-Model branching ratios of the Higgs boson at m_H = HIGGS_TABLE_MASS (LHC Higgs Cross Section
+#: Working Group, CERN Yellow Report 4, arXiv:1610.07922, the table of branching ratios; from memory),
+#: with the total width HIGGS_TABLE_WIDTH (GeV) of the same report
+HIGGS_BRANCHING_RATIOS = {"b bbar": 5.809e-1, "W+ W-": 2.152e-1, "g g": 8.180e-2, "tau- tau+": 6.256e-2,
+                          "c cbar": 2.884e-2, "Z Z": 2.641e-2, "gamma gamma": 2.270e-3, "Z gamma": 1.541e-3,
+                          "mu- mu+": 2.171e-4}
+HIGGS_TABLE_MASS = 125.09
+HIGGS_TABLE_WIDTH = 4.088e-3
+#: how far from HIGGS_TABLE_MASS (GeV) the table is used
+HIGGS_TABLE_RANGE = 0.5
+
 #: particles with a width table: the table's name and whether the particle is the conjugate of it
 TABLES = {"Z": ("Z", False), "H": ("H", False), "W+": ("W+", False), "W-": ("W+", True), "t": ("t", False),
           "tbar": ("t", True)}
 
 
 def branching_ratio(parent: str, products: tuple[str, ...], par: Mapping[str, float]) -> tuple[float | None, list[str]]:
-    """The tree-level branching ratio of parent -> products from `partial_widths` (W- and tbar by
-    conjugation of W+ and t), and the channels of the table; (None, channels) when the channel is
-    not in it, (None, []) when the particle has no table."""
+    """The branching ratio of parent -> products: tree level from `partial_widths` for Z, W and t
+    (W- and tbar by conjugation of W+ and t), the Standard-Model table for H; and the channels of
+    the table. (None, channels) when the channel is not in it, (None, []) when the particle has no
+    table (or, for H, the mass is outside the table's range)."""
     if parent not in TABLES:
         return None, []
     table, conjugate = TABLES[parent]
     wanted = Counter(antiparticle(p) for p in products) if conjugate else Counter(products)
-    brs = branching_ratios(partial_widths(table, par))
+    if table == "H":
+        if abs(par["m_H"] - HIGGS_TABLE_MASS) > HIGGS_TABLE_RANGE:
+            return None, []
+        brs = HIGGS_BRANCHING_RATIOS
+    else:
+        brs = branching_ratios(partial_widths(table, par))
     for channel, br in brs.items():
         if Counter(channel.split()) == wanted:
             return br, list(brs)

@@ -19,6 +19,7 @@ as for e+e- -> gamma*/Z -> l+ l-, Drell-Yan or W production). The decayed partic
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 
@@ -125,7 +126,7 @@ class DecayChain:
 
     @staticmethod
     def _colour(st: DecayStep, colour: np.ndarray, anti: np.ndarray) -> None:
-        """Colour lines of a decay (the card validator admits only these two patterns)."""
+        """Colour lines of a decay (the card validator admits only these patterns)."""
         k1, k2 = st.children
         c, a = colour[:, st.parent], anti[:, st.parent]
         products = [species(st.products[0]), species(st.products[1])]
@@ -134,13 +135,16 @@ class DecayChain:
                 if sp.is_quark:
                     colour[:, k], anti[:, k] = c, a
             return
+        new = np.maximum(colour.max(axis=1), anti.max(axis=1)) + 1
         if all(sp.is_quark for sp in products):  # a colour singlet into q qbar: a new line
-            new = np.maximum(colour.max(axis=1), anti.max(axis=1)) + 1
             for k, sp in zip((k1, k2), products):
                 if sp.colour == 3:
                     colour[:, k] = new
                 else:
                     anti[:, k] = new
+        elif all(sp.colour == 8 for sp in products):  # a colour singlet into g g: two lines joining them
+            colour[:, k1], anti[:, k2] = new, new
+            colour[:, k2], anti[:, k1] = new + 1, new + 1
 
     def describe(self) -> list[dict]:
         return [{"particle": st.particle, "index": st.parent, "into": list(st.products),
@@ -184,5 +188,20 @@ class WithDecays(Process):
         return self.production.couplings()
 
     def validation(self, claimed=None) -> ValidationPlan:
-        raise CannotValidate("gen validate does not yet check samples with decays; decay chains are checked by the "
-                             "test suite (tests/test_decays.py)")
+        """The production's plan times the branching ratios, on the production angle only: the
+        Breit-Wigner masses of the decayed particles change their energies, transverse momenta and
+        rapidities, not their direction in the centre-of-mass frame."""
+        try:
+            plan = self.production.validation(claimed)
+        except CannotValidate as exc:
+            raise CannotValidate(f"{exc}; the decay chain itself is checked by the test suite "
+                                 "(tests/test_decays.py)") from None
+        angle = {k: v for k, v in plan.observables.items() if k == "cos_theta_cm"}
+        if not angle:
+            raise CannotValidate("gen validate compares decayed samples on the production angle, which this process "
+                                 "does not have; the decay chain is checked by the test suite (tests/test_decays.py)")
+        return replace(plan, observables=angle, scale=plan.scale * self.chain.branching_ratio,
+                       note="with decays: the total against the production's reference times the branching ratios "
+                            f"({self.chain.branching_ratio:.6g}) and the production angle; energies, p_T and rapidities "
+                            "shift with the Breit-Wigner masses and are not compared; the decays themselves are "
+                            "checked by the test suite")

@@ -36,6 +36,7 @@ import numpy as np
 
 from ..card import RunConfig
 from ..errors import UserError
+from ..physics.matrix import MODELS
 from ..physics.particles import Species
 
 __all__ = ["Process", "Channel", "Measure", "CROSS_SECTION", "PARTIAL_WIDTH", "EventData", "ParticleLayout",
@@ -175,5 +176,5 @@ class Process(abc.ABC):
         of the file's run record (None: the process's own); raises CannotValidate when there is nothing."""
 
     def couplings(self) -> dict[str, float]:
-        """The couplings the process uses (alpha, alpha_s, sin^2 theta_W where they apply)."""
-        return {k: float(self.params[k]) for k in ("alpha", "alpha_s", "sw2") if k in self.params}
+        """The couplings the process uses, as its model names them (alpha, alpha_s, sin^2 theta_W ...)."""
+        return {k: float(self.params[k]) for k in MODELS[self.cfg.model].couplings if k in self.params}

@@ -11,6 +11,8 @@ from __future__ import annotations
 import json
 import math
 import os
+import warnings
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
@@ -18,11 +20,13 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from ..errors import OutputError
-from ..files import temporary_beside
+from ..errors import GenWarning, OutputError
+from ..files import temporary_beside, write_atomically
 from .schema import arrow_schema, metadata_key
 
-__all__ = ["EventWriter", "read_table", "read_momenta", "read_run", "event_files", "DICTIONARY_COLUMNS"]
+__all__ = ["EventWriter", "read_table", "read_momenta", "read_run", "event_files", "DICTIONARY_COLUMNS",
+           "manifest_name", "write_manifest", "read_manifests", "folder_contents", "FolderContents",
+           "UnfinishedFilesWarning"]
 
 #: the columns worth dictionary-encoding (integers and strings; encoding floats made writing 1.5x slower)
 DICTIONARY_COLUMNS = ["subprocess", "particles.list.particle.role", "particles.list.particle.pdg"]
@@ -130,14 +134,92 @@ def _jsonable(obj):
     raise TypeError(f"cannot store {type(obj).__name__} in the run record")
 
 
+#: the format of the summaries that list a finished run's files (written last: the run's manifest)
+MANIFEST_FORMAT = "gen.summary"
+
+
+class UnfinishedFilesWarning(GenWarning):
+    """Event files in a folder that no finished run lists (an interrupted run, or leftovers)."""
+
+
+def manifest_name(job: int | None) -> str:
+    """The summary of a run (job None) or of batch part `job`: its manifest, written last."""
+    return "summary.json" if job is None else f"summary-part{job:05d}.json"
+
+
+def write_manifest(folder: Path, name: str, doc: dict) -> Path:
+    """Write a summary atomically; it lists the files of one finished run (`files`, `run_id`)."""
+    try:
+        return write_atomically(folder / name, json.dumps(dict(doc, format=MANIFEST_FORMAT), indent=1,
+                                                          default=_jsonable, allow_nan=False))
+    except OSError as exc:
+        raise OutputError(f"{folder / name}: cannot write the run summary: {exc.strerror or exc}") from None
+
+
+def read_manifests(folder: Path) -> list[tuple[Path, dict]]:
+    """The summaries in a folder that are well-formed manifests (others are skipped)."""
+    out = []
+    for path in sorted(folder.glob("summary*.json")):
+        try:
+            doc = json.loads(path.read_text(encoding="utf-8"))
+        except (OSError, ValueError, RecursionError):
+            continue
+        if isinstance(doc, dict) and doc.get("format") == MANIFEST_FORMAT and isinstance(doc.get("files"), dict) \
+                and isinstance(doc.get("run_id"), str):
+            out.append((path, doc))
+    return out
+
+
+@dataclass
+class FolderContents:
+    """The event files of a folder: those of finished runs, and those no finished run lists."""
+
+    files: list[Path] = field(default_factory=list)
+    unfinished: list[Path] = field(default_factory=list)
+    manifests: list[tuple[Path, dict]] = field(default_factory=list)
+
+
+def folder_contents(folder: str | Path) -> FolderContents:
+    """Sort a folder's event files by whether a finished run's summary lists them with its run id."""
+    folder = Path(folder)
+    present = sorted(f for f in folder.glob("*.parquet") if not f.name.startswith("."))
+    manifests = read_manifests(folder)
+    listed = {name: doc["run_id"] for _, doc in manifests for name in doc["files"]}
+    out = FolderContents(manifests=manifests)
+    for f in present:
+        run_id = listed.get(f.name)
+        if run_id is not None and _run_id_of(f) == run_id:
+            out.files.append(f)
+        else:
+            out.unfinished.append(f)
+    return out
+
+
+def _run_id_of(path: Path) -> str | None:
+    try:
+        meta = pq.read_metadata(path).metadata or {}
+        return json.loads(meta[metadata_key().encode()]).get("run_id")
+    except Exception:  # unreadable or foreign: not a finished run's file
+        return None
+
+
 def event_files(path: str | Path) -> list[Path]:
-    """The event files at a path: the file itself, or the .parquet files of a run folder."""
+    """The event files at a path: the file itself, or the files of the finished runs in a folder
+    (files no run's summary lists are left out, with an `UnfinishedFilesWarning`)."""
     p = Path(path)
     if p.is_dir():
-        files = sorted(f for f in p.glob("*.parquet") if not f.name.startswith("."))
-        if not files:
+        contents = folder_contents(p)
+        if contents.unfinished:
+            names = ", ".join(f.name for f in contents.unfinished[:4]) + (" ..." if len(contents.unfinished) > 4 else "")
+            warnings.warn(f"{p}: left out {names}: no finished run's summary lists "
+                          f"{'them' if len(contents.unfinished) > 1 else 'it'} (an interrupted run, or files from "
+                          "elsewhere); rerun the card to complete the run", UnfinishedFilesWarning, stacklevel=2)
+        if not contents.files:
+            if contents.unfinished:
+                raise OutputError(f"{p}: no finished run here: the event files are not listed by a run summary "
+                                  "(the run was interrupted or is still writing); rerun the card, or give a file's path")
             raise OutputError(f"{p}: no event files (*.parquet) in this folder")
-        return files
+        return contents.files
     if not p.exists():
         raise OutputError(f"{p}: no such file or folder")
     return [p]

@@ -25,7 +25,7 @@ import numpy as np
 import vegas
 
 from ..card import RunConfig
-from ..errors import UserError
+from ..errors import GenWarning, UserError
 from ..files import write_atomically
 from ..progress import Progress
 from ..version import __version__
@@ -37,7 +37,7 @@ FORMAT = "gen.grid"
 VERSION = 2
 
 
-class ConsistencyWarning(UserWarning):
+class ConsistencyWarning(GenWarning):
     """The vegas iterations disagree more than their errors allow."""
 
 

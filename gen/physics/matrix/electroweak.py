@@ -215,7 +215,8 @@ _PROC.append(ProcessSpec("electroweak", ("g", "g"), ("H",), gluon_fusion_higgs, 
 
 MODEL = Model(
     name="electroweak",
-    doc="Tree-level electroweak theory with a selectable input scheme (fermi, thomson, zpole).",
+    doc="Tree-level electroweak theory with a selectable input scheme: fermi (default; alpha = sqrt2 G_F m_W^2 "
+        "sin^2/pi, about 1/132), thomson (alpha(0) = 1/137.036) or zpole (alpha(m_Z) = 1/127.951).",
     params={
         "scheme": Key(str, "fermi", doc="electroweak input scheme", choices=SCHEMES),
         "m_Z": Key(NUMBER, None, 1.0, 1e4, "GeV", "Z mass", default_doc="PDG"),
@@ -236,6 +237,7 @@ MODEL = Model(
         "sw2": Key(NUMBER, SW2_EFFECTIVE, 0.0, 1.0, "", "sin^2 theta, the effective leptonic value (zpole scheme only)",
                    lo_open=True),
     },
+    couplings=("alpha", "sw2", "g_fermi"),
     resolve=_resolve,
     mass_params={"Z": "m_Z", "H": "m_H", "W+": "m_W"},
     width_params={"Z": "width_Z", "H": "width_H", "W+": "width_W"},

@@ -283,10 +283,12 @@ def _partonic() -> list[ProcessSpec]:
 
 MODEL = Model(
     name="qcd",
-    doc="Tree-level QCD radiation: e+e- -> gamma* -> q qbar g with a fixed alpha_s (cut away soft and collinear gluons).",
+    doc="Tree-level QCD: e+e- -> gamma* -> q qbar g with a fixed alpha_s (cut away soft and collinear gluons), and "
+        "the parton processes of hadron collisions (jets, top pairs, prompt photons) with a running alpha_s.",
     params={"alpha_s": Key(NUMBER, 0.118, 1e-4, 1.0, "", "strong coupling, fixed (give its value at the process's "
                            "scale); at hadron colliders it runs instead (see [partons])"),
             "alpha": Key(NUMBER, None, 1e-6, 1.0, "", "fine-structure constant", default_doc="CODATA alpha(0)")},
+    couplings=("alpha_s", "alpha"),
     resolve=lambda over: {"alpha_s": float(over.get("alpha_s", 0.118)), "alpha": float(over.get("alpha", alpha_0()))},
     processes=tuple(
         ProcessSpec("qcd", ("e-", "e+"), (q, q + "bar", "g"), None, make_three_jet(q).__doc__,

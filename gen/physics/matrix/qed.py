@@ -144,8 +144,9 @@ _PROC = [
 
 MODEL = Model(
     name="qed",
-    doc="Quantum electrodynamics at tree level; alpha at zero momentum transfer by default.",
+    doc="Quantum electrodynamics at tree level; alpha(0) = 1/137.036 (zero momentum transfer) by default.",
     params={"alpha": Key(NUMBER, None, 1e-6, 1.0, "", "fine-structure constant", default_doc="CODATA alpha(0)")},
+    couplings=("alpha",),
     resolve=_resolve,
     processes=tuple(_PROC),
 )

@@ -178,6 +178,8 @@ class Model:
     processes: tuple[ProcessSpec, ...] = field(default_factory=tuple)
     #: the card's parameters that its other choices leave without effect: {name: reason}
     inapplicable: Callable[[Mapping[str, object]], dict[str, str]] = lambda given: {}
+    #: the resolved parameters that are couplings, shown in every run's summary
+    couplings: tuple[str, ...] = ()
 
     def masses(self, par: Mapping[str, float]) -> dict[str, float]:
         """Masses (GeV) the model sets, from its resolved parameters; by particle name."""

@@ -39,6 +39,7 @@ MODEL = Model(
         "quartic": Key(NUMBER, 1.0, -1e3, 1e3, "", "quartic coupling lambda"),
         "cubic": Key(NUMBER, 0.0, -1e5, 1e5, "GeV", "cubic coupling g"),
     },
+    couplings=("quartic", "cubic"),
     resolve=_resolve,
     mass_params={"phi": "mass"},
     processes=(ProcessSpec("scalar", ("phi", "phi"), ("phi", "phi"), scalar_scattering,
