@@ -53,27 +53,27 @@ SPEC: dict[str, dict[str, Key]] = {
                         "beams one or two, and group names (jet, quark, antiquark, l-, l+, nu, nubar) stand for any of their members"),
     },
     "collider": {
-        "sqrt_s": Key(NUMBER, lo=0.0, lo_open=True, unit="GeV", doc="head-on beams of equal energy sqrt_s/2 (laboratory = centre-of-mass frame)"),
+        "sqrt_s": Key(NUMBER, lo=0.0, hi=1e9, lo_open=True, unit="GeV", doc="head-on beams of equal energy sqrt_s/2 (laboratory = centre-of-mass frame)"),
         "beam_energies": Key(list, unit="GeV", doc="[E1, E2]: head-on beams of these energies, beam 1 along +z"),
-        "beam_energy": Key(NUMBER, lo=0.0, lo_open=True, unit="GeV", doc="fixed target: beam 1 of this energy along +z onto particle 2 at rest"),
+        "beam_energy": Key(NUMBER, lo=0.0, hi=1e9, lo_open=True, unit="GeV", doc="fixed target: beam 1 of this energy along +z onto particle 2 at rest"),
     },
     "cuts": {
         "particles": Key(list, doc="outgoing particles the cuts apply to (default: all outgoing)"),
         "theta_min_deg": Key(NUMBER, 0.0, 0.0, 180.0, "deg", "smallest polar angle to +z in the laboratory, each particle"),
         "theta_max_deg": Key(NUMBER, 180.0, 0.0, 180.0, "deg", "largest polar angle to +z in the laboratory, each particle"),
-        "energy_min": Key(NUMBER, 0.0, 0.0, None, "GeV", "smallest laboratory energy, each particle"),
+        "energy_min": Key(NUMBER, 0.0, 0.0, 1e9, "GeV", "smallest laboratory energy, each particle"),
         "energy_max": Key(NUMBER, math.inf, 0.0, None, "GeV", "largest laboratory energy, each particle", allow_inf=True),
-        "pt_min": Key(NUMBER, 0.0, 0.0, None, "GeV", "smallest transverse momentum, each particle"),
+        "pt_min": Key(NUMBER, 0.0, 0.0, 1e9, "GeV", "smallest transverse momentum, each particle"),
         "pt_max": Key(NUMBER, math.inf, 0.0, None, "GeV", "largest transverse momentum, each particle", allow_inf=True),
-        "mass_min": Key(NUMBER, 0.0, 0.0, None, "GeV", "smallest invariant mass of the selected particles together"),
+        "mass_min": Key(NUMBER, 0.0, 0.0, 1e9, "GeV", "smallest invariant mass of the selected particles together"),
         "mass_max": Key(NUMBER, math.inf, 0.0, None, "GeV", "largest invariant mass of the selected particles together",
                         allow_inf=True),
-        "pair_mass_min": Key(NUMBER, 0.0, 0.0, None, "GeV", "smallest invariant mass of every pair of selected particles"),
+        "pair_mass_min": Key(NUMBER, 0.0, 0.0, 1e9, "GeV", "smallest invariant mass of every pair of selected particles"),
         "eta_max": Key(NUMBER, math.inf, 0.0, None, "", "largest |pseudorapidity| in the laboratory, each particle",
                        allow_inf=True, lo_open=True),
         "rapidity_max": Key(NUMBER, math.inf, 0.0, None, "", "largest |rapidity| in the laboratory, each particle",
                             allow_inf=True, lo_open=True),
-        "delta_r_min": Key(NUMBER, 0.0, 0.0, None, "", "smallest Delta R = sqrt(Delta eta^2 + Delta phi^2) of every pair of selected particles"),
+        "delta_r_min": Key(NUMBER, 0.0, 0.0, 100.0, "", "smallest Delta R = sqrt(Delta eta^2 + Delta phi^2) of every pair of selected particles"),
     },
     "partons": {
         "set": Key(str, _pdf.DEFAULT_SET, doc="parton-density set: a name searched in LHAPDF_DATA_PATH and the sets shipped "
@@ -462,6 +462,15 @@ def _parton_set(d: _Draft) -> None:
     if part["member"] >= d.parton_set.members:
         raise d.error("partons.member", f"{part['member']} does not exist; the set {d.parton_set.name!r} has members "
                       f"0..{d.parton_set.members - 1}")
+
+
+@_rule("partons.alpha_s_mz is given only when partons.alpha_s runs (one_loop or two_loop); with set the "
+       "coupling comes from the parton set.")
+def _alpha_s_reference(d: _Draft) -> None:
+    raw = d.doc.get("partons", {})
+    if d.hadrons and "alpha_s_mz" in raw and d.sections["partons"]["alpha_s"] == "set":
+        raise d.error("partons.alpha_s_mz", "has no effect with partons.alpha_s = \"set\" (alpha_s comes from the "
+                      "parton set's table); set partons.alpha_s = \"one_loop\" or \"two_loop\" to run it from this value")
 
 
 @_rule("scales.renormalization and scales.factorization are one of auto, sqrt_shat, half_ht, pt, or a fixed "

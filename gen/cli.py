@@ -44,6 +44,15 @@ def _measure_line(rec: dict, value: float, error: float) -> str:
     return f"  σ           {_fmt_value(value, error, m['unit'])}"
 
 
+def _couplings_text(model: str, couplings: dict) -> str:
+    """alpha = 0.00729735, g_fermi = 1.16638e-05 GeV^-2, ...: each with its unit where it has one."""
+    from .physics.matrix import MODELS
+
+    params = MODELS[model].params if model in MODELS else {}
+    return ", ".join(f"{k} = {v:.6g}" + (f" {params[k].unit}" if k in params and params[k].unit else "")
+                     for k, v in couplings.items())
+
+
 def _print_warnings(caught) -> None:
     from .errors import GenWarning
 
@@ -163,9 +172,8 @@ def _report_run(res) -> None:
         print(f"  unweighted  {st.accepted} events, efficiency {st.efficiency:.1%}, "
               f"{st.overflow_events} above w_max carrying {st.overflow_share:.2%} of the total "
               f"(sampling pass: {est:.6g} ± {err:.2g} {unit})")
-    couplings = rec["parameters"].get("couplings", {})
-    if couplings:
-        print("  couplings   " + ", ".join(f"{k} = {v:.6g}" for k, v in couplings.items()))
+    if rec["parameters"].get("couplings"):
+        print("  couplings   " + _couplings_text(rec["process"]["model"], rec["parameters"]["couplings"]))
     for f in res.files:
         print(f"  wrote       {f}")
     if res.summary:
@@ -288,9 +296,8 @@ def _print_info(info: dict) -> None:
         u = info["unweighting"]
         print(f"  unweighting efficiency {u['efficiency']:.1%}, {u['overflow_events']} above w_max "
               f"({u['overflow_share']:.2%} of the total)")
-    couplings = info["parameters"].get("couplings", {})
-    if couplings:
-        print("  couplings   " + ", ".join(f"{k} = {v:.6g}" for k, v in couplings.items()))
+    if info["parameters"].get("couplings"):
+        print("  couplings   " + _couplings_text(proc["model"], info["parameters"]["couplings"]))
     model = info["parameters"].get("model", {})
     print("  parameters  " + ", ".join(f"{k} = {v:.6g}" if isinstance(v, float) else f"{k} = {v}"
                                      for k, v in model.items()))

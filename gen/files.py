@@ -67,13 +67,17 @@ class FolderLock:
     def __init__(self, folder: Path, unit: str):
         self.path = folder / f".gen-lock-{unit}"
         self.held = False
+        #: the folders acquire() created, deepest first (removed again by `remove_created` if left empty)
+        self.created: list[Path] = []
 
     def acquire(self) -> "FolderLock":
         import json
         import socket
         import time
 
+        missing = [p for p in [self.path.parent, *self.path.parent.parents] if not p.exists()]
         self.path.parent.mkdir(parents=True, exist_ok=True)
+        self.created = missing
         me = {"host": socket.gethostname(), "pid": os.getpid(), "started": time.strftime("%Y-%m-%d %H:%M:%S")}
         for _ in range(3):
             try:
@@ -121,6 +125,14 @@ class FolderLock:
         if self.held:
             self.path.unlink(missing_ok=True)
             self.held = False
+
+    def remove_created(self) -> None:
+        """Remove the folders acquire() created, where they are empty (a failed run leaves nothing)."""
+        for folder in self.created:
+            try:
+                folder.rmdir()
+            except OSError:
+                break
 
     def __enter__(self) -> "FolderLock":
         return self.acquire()

@@ -31,7 +31,7 @@ from ..files import stale_temporaries
 from ..progress import Progress
 from ..records.schema import arrow_schema
 from ..records.store import EventWriter, event_files, read_run
-from .run import by_subprocess, claim_folder, clear_earlier_run, lifetime_s, write_summary
+from .run import by_subprocess, claim_folder, clear_earlier_run, lifetime_s, refuse_occupied, write_summary
 
 __all__ = ["MergeError", "collect_parts", "check_parts", "combine", "merge"]
 
@@ -158,7 +158,8 @@ def merge(paths: list[str | Path], out: str | Path, progress: Progress | None = 
     out = Path(out).expanduser()
     if out.exists() and not out.is_dir():
         raise OutputError(f"{out}: exists and is not a folder")
-    with claim_folder(out, None, replace):
+    with claim_folder(out, None):
+        refuse_occupied(out, None, replace)
         for name in ("unweighted.parquet", "weighted.parquet", "summary.json", "summary.txt"):
             for tmp in stale_temporaries(out, name):  # leftovers of a killed merge
                 tmp.unlink(missing_ok=True)

@@ -34,18 +34,18 @@ from ..card import CARD_SCHEMA_VERSION, RunConfig
 from ..errors import GenWarning, OutputError
 from ..files import FolderLock, LockHeld, stale_temporaries, write_atomically
 from ..physics.constants import hbar_gev_s
-from ..processes import Process, build_process
+from ..processes import Process, build_process, guarded
 from ..progress import Progress
 from ..records.events import JOB_STRIDE, RecordBuilder
 from ..records.schema import schema_doc
-from ..records.store import EventWriter, folder_contents, manifest_name, read_run, write_manifest
+from ..records.store import EventWriter, folder_contents, manifest_name, read_manifests, read_run, write_manifest
 from ..sampling.grid import ConsistencyWarning, Grid, make_grid, physics_digest, streams
 from ..sampling.sampler import CrossSection, MapSampler, UnweightingStats
 from ..version import __version__
 
 __all__ = ["run", "RunResult", "ConsistencyWarning", "LowEfficiencyWarning", "UNWEIGHTED_FILE", "WEIGHTED_FILE",
            "default_folder", "part_name", "part_sizes", "part_complete", "CARD_COPY", "claim_folder",
-           "clear_earlier_run", "write_summary", "summary_text"]
+           "refuse_occupied", "clear_earlier_run", "write_summary", "summary_text"]
 
 UNWEIGHTED_FILE = "unweighted.parquet"
 WEIGHTED_FILE = "weighted.parquet"
@@ -187,6 +187,25 @@ def _earlier_run(out: Path, job: int | None) -> list[Path]:
     return [out / n for n in names if (out / n).exists()]
 
 
+def _occupant(out: Path, job: int | None) -> list[Path]:
+    """What replacing needs --force for: a finished earlier run of this unit (its summary and the
+    files it lists), and files of these names that are not gen's. The files of an interrupted run
+    (no summary lists them) are not an occupant: a rerun replaces them."""
+    summary = out / manifest_name(job)
+    listed: set[str] = set()
+    if summary.exists():
+        found = [doc for path, doc in read_manifests(out) if path.name == summary.name]
+        listed = set(found[0]["files"]) if found else set()
+    occupant = [p for p in _earlier_run(out, job) if p.suffix != ".parquet" or p.name in listed]
+    for path in _earlier_run(out, job):
+        if path.suffix == ".parquet" and path.name not in listed:
+            try:
+                read_run(path)
+            except OutputError:
+                occupant.append(path)  # not a gen event file: never replaced without being asked
+    return occupant if any(p.suffix == ".parquet" or p.name == summary.name for p in occupant) else []
+
+
 def clear_earlier_run(out: Path, job: int | None, keep: set[str]) -> None:
     """Remove the earlier run's files of this unit that this run does not replace by name, and for
     a whole run its validation and plot folders (their outputs described the earlier files)."""
@@ -217,9 +236,10 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
     if grid is not None:
         grid.check_card(cfg, cfg.source)
         grid.check_process(proc, cfg.source)
-    with claim_folder(out, job, replace, lambda: _same_unfinished_part(out, cfg, job, jobs)):
+    with claim_folder(out, job):
         if job is not None and grid is not None and part_complete(out, cfg, grid, job, jobs):
             return RunResult(out, grid.cross_section, None, [], {}, skipped=True)
+        refuse_occupied(out, job, replace)
         if grid is None:
             grid = make_grid(proc, cfg, progress)
         t_adapted = time.monotonic()
@@ -227,10 +247,8 @@ def run(cfg: RunConfig, folder: str | Path | None = None, progress: Progress | N
 
 
 @contextlib.contextmanager
-def claim_folder(out: Path, job: int | None, replace: bool, may_redo=lambda: False):
-    """Hold the lock of one unit (a run, or part `job`) of a folder while it is written, and refuse
-    a folder that holds another run's files of that unit unless `replace` (or `may_redo()`: the
-    unfinished attempt of the same part)."""
+def claim_folder(out: Path, job: int | None):
+    """Hold the lock of one unit of a folder (a run, or part `job`) while it is written."""
     try:
         lock = FolderLock(out, "run" if job is None else f"part{job:05d}").acquire()
     except LockHeld as exc:
@@ -238,28 +256,19 @@ def claim_folder(out: Path, job: int | None, replace: bool, may_redo=lambda: Fal
     except OSError as exc:
         raise OutputError(f"{out}: cannot write the event files into this folder: {exc.strerror or exc}") from None
     try:
-        earlier = _earlier_run(out, job)
-        if earlier and not replace and not may_redo():
-            raise OutputError(_occupied_message(out, earlier, job))
         yield lock
-    finally:
+    except BaseException:
         lock.release()
+        lock.remove_created()  # a run that failed leaves no folder it made
+        raise
+    lock.release()
 
 
-def _same_unfinished_part(out: Path, cfg: RunConfig, job: int | None, jobs: int) -> bool:
-    """A part whose earlier attempt (of this very card) did not finish is redone without --force."""
-    if job is None:
-        return False
-    for path in _earlier_run(out, job):
-        if path.suffix != ".parquet":
-            continue
-        try:
-            rec = read_run(path)
-        except OutputError:
-            return False
-        if rec["card"].get("digest") != physics_digest(cfg) or rec["job"].get("count") != jobs:
-            return False
-    return True
+def refuse_occupied(out: Path, job: int | None, replace: bool) -> None:
+    """Refuse to write a unit whose place holds a finished earlier run, unless `replace`."""
+    occupant = _occupant(out, job)
+    if occupant and not replace:
+        raise OutputError(_occupied_message(out, occupant, job))
 
 
 def _occupied_message(out: Path, earlier: list[Path], job: int | None) -> str:
@@ -282,7 +291,7 @@ def _sample(cfg, proc, grid, out, job, jobs, progress, t_start, t_adapted) -> Ru
     samp = cfg.sampling
     index = 0 if job is None else job
     rng_unw, rng_w = streams(samp["seed"], index)
-    sampler = MapSampler(proc.weights, grid.adaptive_map(), proc.ndim, samp["chunk"])
+    sampler = MapSampler(guarded(proc), grid.adaptive_map(), proc.ndim, samp["chunk"])
     builder = RecordBuilder(proc.particle_layout(), proc.measure.unit)
     labels = builder.layout.subprocesses
     unit = proc.measure.unit

@@ -4,16 +4,18 @@ make its events, behind one declared interface (`gen.processes.interface.Process
 from __future__ import annotations
 
 from ..card import RunConfig
+from .guard import IntegrandError, guarded, probe
 from .interface import CannotValidate, Channel, EventData, Measure, ParticleLayout, Process, ValidationPlan
 
 __all__ = ["build_process", "Process", "Channel", "Measure", "EventData", "ParticleLayout", "ValidationPlan",
-           "CannotValidate"]
+           "CannotValidate", "IntegrandError", "guarded"]
 
 
 def build_process(cfg: RunConfig) -> Process:
-    """The process of a validated card (raises CardError where the phase space cannot be built):
-    a `TwoToTwo` or `ManyBody` at fixed beam energies, a `DecayAtRest`, or a `HadronCollision`,
-    wrapped in `WithDecays` when the card decays particles."""
+    """The process of a validated card (raises CardError where the phase space cannot be built, and
+    IntegrandError where the integrand cannot be sampled): a `TwoToTwo` or `ManyBody` at fixed beam
+    energies, a `DecayAtRest`, or a `HadronCollision`, wrapped in `WithDecays` when the card decays
+    particles."""
     if cfg.hadron_beams:
         from .hadron import HadronCollision
 
@@ -29,5 +31,6 @@ def build_process(cfg: RunConfig) -> Process:
     if cfg.resolved.decays:
         from .decays import WithDecays
 
-        return WithDecays(proc)
+        proc = WithDecays(proc)
+    probe(proc)
     return proc

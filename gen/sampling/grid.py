@@ -29,6 +29,7 @@ from ..errors import GenWarning, UserError
 from ..files import write_atomically
 from ..progress import Progress
 from ..version import __version__
+from ..processes.guard import guarded
 from .sampler import CrossSection, MapSampler, adapt
 
 __all__ = ["Grid", "GridError", "ConsistencyWarning", "make_grid", "physics_digest", "streams"]
@@ -64,10 +65,12 @@ def physics_digest(cfg: RunConfig) -> str:
 def streams(seed: int, job: int | None = None) -> list[np.random.Generator]:
     """Independent generators: [adaptation, calibration] for job None, else [unweighted, weighted] of that job.
 
-    Keys: (0,) for the grid, (1, job) for part `job`; no two streams share a spawn key.
+    Keys: (0,) for the grid, (1, job) for part `job`, (2,) for the probe of the integrand when the
+    process is built (`gen.processes.guard`); no two streams share a spawn key.
     """
     key = (0,) if job is None else (1, job)
     return [np.random.default_rng(s) for s in np.random.SeedSequence(seed, spawn_key=key).spawn(2)]
+
 
 
 @dataclass(frozen=True)
@@ -180,9 +183,10 @@ def make_grid(proc, cfg: RunConfig, progress: Progress | None = None) -> Grid:
     progress = progress or Progress(enabled=False)
     integ = cfg.integration
     unit = proc.measure.unit
+    weights = guarded(proc)
     rng_adapt, rng_cal = streams(cfg.sampling["seed"])
     progress.stage("adapt", integ["warmup_iterations"] + integ["iterations"])
-    xs, amap = adapt(proc.weights, proc.ndim, rng_adapt, warmup=integ["warmup_iterations"],
+    xs, amap = adapt(weights, proc.ndim, rng_adapt, warmup=integ["warmup_iterations"],
                      iterations=integ["iterations"], points=integ["points_per_iteration"],
                      on_iteration=lambda i, n, v, e: progress.update(i, f"{proc.measure.symbol} = {v:.5e} ± {e:.2e} {unit}"))
     progress.end(f"{proc.measure.symbol} = {xs.value:.5e} ± {xs.error:.2e} {unit}")
@@ -195,7 +199,7 @@ def make_grid(proc, cfg: RunConfig, progress: Progress | None = None) -> Grid:
     grid = np.asarray(amap.grid)
     nodes = tuple(tuple(float(v) for v in grid[d, :ninc[d] + 1]) for d in range(proc.ndim))
     # calibrate on the map rebuilt from the stored nodes, exactly as every part will sample it
-    sampler = MapSampler(proc.weights, vegas.AdaptiveMap([list(n) for n in nodes]), proc.ndim, cfg.sampling["chunk"])
+    sampler = MapSampler(weights, vegas.AdaptiveMap([list(n) for n in nodes]), proc.ndim, cfg.sampling["chunk"])
     wmax = sampler.max_weight(rng_cal, cfg.sampling["calibration_points"])
     return Grid(physics_digest(cfg), cfg.text, cfg.source, tuple((c.name, c.ndim) for c in proc.channels), nodes, xs,
                 wmax)

@@ -1,0 +1,85 @@
+"""One guard where the integrand is built: a card whose integrand vanishes everywhere, or is
+negative or not finite somewhere, ends in one clear error naming the card key most likely
+responsible, before vegas or the unweighting see it.
+
+`probe` evaluates a new process at uniform points of the hypercube (`build_process` calls it, with
+a random stream of its own: spawn key (2,) of the card's seed); `guarded` wraps the integrand so
+that every later evaluation (adaptation, calibration, sampling) is checked the same way.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..card import CUT_DEFAULTS
+from ..errors import CardError
+from ..physics.matrix import MODELS
+
+__all__ = ["IntegrandError", "probe", "guarded"]
+
+#: points of the probe before adaptation
+PROBE_POINTS = 4096
+
+
+class IntegrandError(CardError):
+    """An integrand that cannot be sampled (zero everywhere, negative or not finite somewhere)."""
+
+
+def _diagnose(proc, what: str) -> IntegrandError:
+    cfg = proc.cfg
+    model = MODELS[cfg.model]
+    given = cfg.parameters
+    if what == "zero":
+        zero = [k for k in model.couplings if k in given and given[k] == 0]
+        if zero:
+            key, why = f"parameters.{zero[0]}", "a coupling of 0 switches the process off"
+        elif _cuts_given(cfg):
+            key, why = "cuts", "the cuts leave no part of the phase space where the process is non-zero"
+        else:
+            key, why = "process", "the process has no phase space where its |M|^2 is non-zero at this energy"
+        return IntegrandError(cfg.source, key, f"the integrand is zero at every one of {PROBE_POINTS} trial points: {why}")
+    if what == "negative" and cfg.hadron_beams:
+        fixed = [k for k in ("factorization", "renormalization") if not isinstance(cfg.scales[k], str)]
+        key = f"scales.{fixed[0]}" if fixed else "partons.set"
+        return IntegrandError(cfg.source, key, "the integrand is negative at some points: the parton densities of "
+                              f"{cfg.partons['set']!r} are negative there (at small x and low scales); choose a "
+                              "larger or a dynamic scale, or another set")
+    widths = [k for k, v in given.items() if k.startswith("width") and v == 0]
+    if widths:
+        return IntegrandError(cfg.source, f"parameters.{widths[0]}", f"the integrand is {what} at some points: a width "
+                              "of 0 leaves the resonance's propagator infinite where the phase space crosses its mass; "
+                              "give the physical width")
+    return IntegrandError(cfg.source, "process", f"the integrand is {what} at some points (an unregularized pole inside "
+                          "the phase space?); narrow the cuts or the energy, and report it if the card looks right")
+
+
+def _cuts_given(cfg) -> bool:
+    return any(v != CUT_DEFAULTS[k] for k, v in cfg.cuts.items() if k != "particles") or "particles" in cfg.cuts
+
+
+def _check(proc, w: np.ndarray) -> np.ndarray:
+    finite = np.isfinite(w)
+    if not finite.all():
+        raise _diagnose(proc, "not finite")
+    if (w < 0).any():
+        raise _diagnose(proc, "negative")
+    return w
+
+
+def probe(proc) -> None:
+    """Raise IntegrandError when the process's integrand is zero at every one of PROBE_POINTS
+    uniform points, or negative or not finite at any of them."""
+    rng = np.random.default_rng(np.random.SeedSequence(proc.cfg.sampling["seed"], spawn_key=(2,)))
+    with np.errstate(all="ignore"):
+        w = _check(proc, proc.weights(rng.random((PROBE_POINTS, proc.ndim))))
+    if not (w > 0).any():
+        raise _diagnose(proc, "zero")
+
+
+def guarded(proc):
+    """proc.weights, checked at every call: finite and non-negative, else IntegrandError."""
+    def weights(x):
+        with np.errstate(all="ignore"):
+            return _check(proc, proc.weights(x))
+
+    return weights
