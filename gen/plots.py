@@ -11,7 +11,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .errors import UserError
+from .errors import OutputError, UserError
 
 __all__ = ["validation_plot", "quick_look"]
 
@@ -102,7 +102,10 @@ def quick_look(path: str | Path, out: str | Path | None = None, bins: int = 40) 
         raise UserError(f"{path}: the run record names {len(names)} particles per event but the events hold {n}")
     p = np.stack([flat.field(k).to_numpy(zero_copy_only=False) for k in ("e", "px", "py", "pz")], -1).reshape(len(w), n, 4)
     out_dir = Path(out) if out is not None else path.parent / "plots"
-    out_dir.mkdir(parents=True, exist_ok=True)
+    try:
+        out_dir.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise OutputError(f"{out_dir}: cannot make the plot folder: {exc.strerror or exc}") from None
     files = []
     for k in [i for i, r in enumerate(roles) if r == "outgoing"]:
         q = p[:, k, :]
@@ -141,11 +144,18 @@ def save_figure(fig, target: Path, **savefig_options) -> Path:
 
     from .files import temporary_beside
 
-    fd, tmp = temporary_beside(target)
+    try:
+        fd, tmp = temporary_beside(target)
+    except OSError as exc:
+        plt.close(fig)
+        raise OutputError(f"{target.parent}: cannot write the plot: {exc.strerror or exc}") from None
     try:
         with open(fd, "wb") as fh:
             fig.savefig(fh, format="png", **{"dpi": 100, **savefig_options})
         tmp.replace(target)
+    except OSError as exc:
+        tmp.unlink(missing_ok=True)
+        raise OutputError(f"{target}: cannot write the plot: {exc.strerror or exc}") from None
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise

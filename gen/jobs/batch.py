@@ -131,7 +131,7 @@ def combine(unweighted: list[PartFile]) -> dict:
         "value": value, "error": error,
         "method": "inverse-variance combination of the grid's vegas estimate and the pooled mean of all parts' unweighting trials",
         "adaptation": {"value": g, "error": dg},
-        "sampling": {"value": s, "error": ds, "trials": n},
+        "sampling": {"value": s, "error": ds, "trials": n, "sum_w": sw, "sum_w2": sw2},
         "events": accepted, "efficiency": accepted / n if n else 0.0,
         "overflow_events": sum(pf.record["unweighting"]["overflow_events"] for pf in unweighted),
         "overflow_share": excess / sw if sw > 0 else 0.0,
@@ -210,6 +210,7 @@ def _merge(parts: dict[str, list[PartFile]], out: Path, progress: Progress, row_
                 rec["cross_section"]["by_subprocess"] = by_subprocess(labels, counts, combined["value"])
                 rec["unweighting"] = {k: combined[k] for k in ("efficiency", "overflow_events", "overflow_share")}
                 rec["unweighting"].update(trials=combined["sampling"]["trials"], accepted=combined["events"],
+                                          sum_w=combined["sampling"]["sum_w"], sum_w2=combined["sampling"]["sum_w2"],
                                           max_weight=files[0].record["unweighting"]["max_weight"])
                 rec["events"] = {"count": wr.rows, "sum_weights": wr.sum_w, "max_weight": wr.max_w}
             else:

@@ -146,6 +146,10 @@ def _parse_member(text: str, source: str) -> list[Block]:
         expected = x.size * q.size * len(pids)
         if vals.size != expected:
             raise PdfError(f"{source}: block {nb}: {vals.size} values, expected {x.size} x {q.size} x {len(pids)} = {expected}")
+        if not (np.all(np.isfinite(x)) and np.all(np.isfinite(q)) and np.all(np.isfinite(vals))):
+            raise PdfError(f"{source}: block {nb}: non-finite numbers (nan or inf) in the grid")
+        if x[0] <= 0 or x[-1] > 1 or q[0] <= 0:
+            raise PdfError(f"{source}: block {nb}: x nodes must lie in (0, 1] and Q nodes be positive")
         if np.any(np.diff(x) <= 0) or np.any(np.diff(q) <= 0):
             raise PdfError(f"{source}: block {nb}: x or Q nodes are not increasing")
         pids = tuple(21 if p == 0 else p for p in pids)

@@ -225,14 +225,37 @@ def event_files(path: str | Path) -> list[Path]:
     return [p]
 
 
+_NUM = (int, float)
+
 #: what every run record must hold for the commands to use it: key path -> accepted types
 _RECORD_KEYS: dict[tuple[str, ...], tuple[type, ...]] = {
-    ("schema_version",): (str,), ("weighting",): (str,), ("card", "text"): (str,), ("card", "path"): (str,),
-    ("process", "label"): (str,), ("collider", "sqrt_s_GeV"): (int, float),
-    ("cross_section", "total", "value"): (int, float), ("cross_section", "total", "error"): (int, float),
-    ("events", "count"): (int,), ("events", "sum_weights"): (int, float), ("job", "count"): (int,),
-    ("measure", "unit"): (str,), ("seed",): (int,),
+    ("schema_version",): (str,), ("weighting",): (str,), ("run_id",): (str,), ("seed",): (int,),
+    ("card", "text"): (str,), ("card", "path"): (str,), ("card", "digest"): (str,), ("card", "sampling"): (dict,),
+    ("process", "label"): (str,), ("process", "model"): (str,), ("process", "incoming"): (list,),
+    ("process", "outgoing"): (list,), ("collider", "sqrt_s_GeV"): _NUM,
+    ("parameters", "model"): (dict,), ("parameters", "masses_GeV"): (dict,),
+    ("measure", "unit"): (str,), ("grid", "checksum"): (str,),
+    ("cross_section", "total", "value"): _NUM, ("cross_section", "total", "error"): _NUM,
+    ("cross_section", "by_subprocess"): (dict,),
+    ("events", "count"): (int,), ("events", "sum_weights"): _NUM, ("events", "max_weight"): _NUM,
+    ("job", "count"): (int,),
 }
+#: and by weighting kind
+_KIND_KEYS: dict[str, dict[tuple[str, ...], tuple[type, ...]]] = {
+    "unweighted": {("unweighting", k): _NUM for k in ("trials", "accepted", "sum_w", "sum_w2", "efficiency",
+                                                       "overflow_events", "overflow_share", "max_weight")},
+    "weighted": {("events", "trials"): (int,)},
+}
+
+
+def _check_key(p: Path, rec: dict, path: tuple[str, ...], kinds: tuple[type, ...]) -> None:
+    node: Any = rec
+    for k in path:
+        node = node.get(k) if isinstance(node, dict) else None
+    bad = isinstance(node, bool) or not isinstance(node, kinds) or (isinstance(node, float) and not math.isfinite(node))
+    if bad:
+        raise OutputError(f"{p}: the run record's {'.'.join(path)} is {node!r:.60}; expected "
+                          f"{' or '.join(k.__name__ for k in kinds)} (the file's metadata is damaged)")
 
 
 def _check_record(p: Path, rec: Any) -> dict:
@@ -243,17 +266,17 @@ def _check_record(p: Path, rec: Any) -> dict:
         raise OutputError(f"{p}: written with schema {version}; this gen reads schema 2 files (rerun the card to "
                           "write the sample again)")
     for path, kinds in _RECORD_KEYS.items():
-        node: Any = rec
-        for k in path:
-            node = node.get(k) if isinstance(node, dict) else None
-        if isinstance(node, bool) or not isinstance(node, kinds) or (isinstance(node, float) and not math.isfinite(node)):
-            raise OutputError(f"{p}: the run record's {'.'.join(path)} is {node!r}; expected "
-                              f"{' or '.join(k.__name__ for k in kinds)} (the file's metadata is damaged)")
-    if rec["weighting"] not in ("unweighted", "weighted"):
+        _check_key(p, rec, path, kinds)
+    if rec["weighting"] not in _KIND_KEYS:
         raise OutputError(f"{p}: the run record's weighting is {rec['weighting']!r}; expected 'unweighted' or 'weighted'")
-    job = rec.get("job", {})
-    if not (isinstance(job.get("index"), int) or (job.get("index") is None and "merged" in job)):
+    for path, kinds in _KIND_KEYS[rec["weighting"]].items():
+        _check_key(p, rec, path, kinds)
+    job = rec["job"]
+    if not (isinstance(job.get("index"), int) or (job.get("index") is None and isinstance(job.get("merged"), list))):
         raise OutputError(f"{p}: the run record's job.index is {job.get('index')!r}; expected an integer")
+    for label, v in rec["cross_section"]["by_subprocess"].items():
+        if not (isinstance(v, dict) and isinstance(v.get("value"), _NUM) and isinstance(v.get("events"), int)):
+            raise OutputError(f"{p}: the run record's cross_section.by_subprocess[{label!r}] is damaged")
     return rec
 
 
