@@ -118,12 +118,19 @@ def _cmd_run(args) -> int:
     jobs = args.jobs if args.jobs is not None else (args.workers if args.workers else 1)
     if args.scheduler and args.jobs is None:
         raise UserError("--scheduler needs --jobs N, the number of parts to make")
+    if args.scheduler is not None:
+        from .jobs.distributed import check_scheduler_address
+
+        args.scheduler = check_scheduler_address(args.scheduler)
     if jobs < 1 or (args.job is not None and not 0 <= args.job < jobs):
         raise UserError(f"--job must be in 0..{jobs - 1} and --jobs at least 1 (found --job {args.job}, --jobs {jobs})")
     if args.workers is not None and args.workers < 1:
         raise UserError(f"--workers must be at least 1, found {args.workers}")
     proc = build_process(cfg)  # every card and phase-space error comes before anything is printed
     grid = Grid.load(args.grid) if args.grid else None
+    if grid is not None:  # a grid for another card or process is refused before the banner too
+        grid.check_card(cfg, cfg.source)
+        grid.check_process(proc, cfg.source)
     if show:
         print(f"gen {__version__} ▸ {' '.join(p.name for p in cfg.incoming)} → "
               f"{' '.join(p.name for p in cfg.outgoing)}  [{cfg.model}]  card {cfg.source}")
@@ -310,6 +317,8 @@ def _cmd_validate(args) -> int:
     from .records.store import event_files
     from .validate import Thresholds, validate
 
+    if args.bins < 1:
+        raise UserError(f"--bins must be at least 1, found {args.bins}")
     th = Thresholds(p_min=args.p_min, pull_max=args.pull_max, sigma_max=args.sigma_max)
     files = [f for f in event_files(args.path) if "-part" not in f.name]
     if not files:
@@ -396,24 +405,29 @@ def _grouped(outgoing, groups) -> list[str]:
     return [next((g for g in ("jet", "l-", "l+", "nu", "nubar") if p in groups[g]), p) for p in outgoing]
 
 
+def _path(text: str) -> str:
+    """A path argument with ~ expanded (as the shell does for an unquoted word), the same for every option."""
+    return str(Path(text).expanduser())
+
+
 def parser() -> argparse.ArgumentParser:
     ap = argparse.ArgumentParser(prog="gen", description="Leading-order event generation to Parquet.")
     ap.add_argument("--version", action="version", version=f"gen {__version__}")
     ap.add_argument("--debug", action="store_true", help="show the traceback of an internal error")
     sub = ap.add_subparsers(dest="command", required=True, metavar="COMMAND")
     a = sub.add_parser("adapt", help="adapt the vegas grid once and write it, for batch parts")
-    a.add_argument("card", help="run card (TOML)")
-    a.add_argument("-o", "--output", required=True, help="grid file to write (JSON)")
+    a.add_argument("card", type=_path, help="run card (TOML)")
+    a.add_argument("-o", "--output", required=True, type=_path, help="grid file to write (JSON)")
     a.add_argument("--seed", type=int, help="random seed (overrides sampling.seed)")
     a.add_argument("--quiet", action="store_true", help="print nothing but warnings and errors")
     a.set_defaults(func=_cmd_adapt)
     r = sub.add_parser("run", help="integrate a card's process and write its event files")
-    r.add_argument("card", help="run card (TOML)")
-    r.add_argument("-o", "--output", help="run folder (default: the card's output.folder, else gen-runs/<card name>)")
+    r.add_argument("card", type=_path, help="run card (TOML)")
+    r.add_argument("-o", "--output", type=_path, help="run folder (default: the card's output.folder, else gen-runs/<card name>)")
     r.add_argument("--events", type=int, help="unweighted events in all (overrides sampling.events)")
     r.add_argument("--seed", type=int, help="random seed (overrides sampling.seed)")
     r.add_argument("--quiet", action="store_true", help="print nothing but warnings and errors")
-    r.add_argument("--grid", help="sample this adapted grid (from gen adapt) instead of adapting")
+    r.add_argument("--grid", type=_path, help="sample this adapted grid (from gen adapt) instead of adapting")
     r.add_argument("--job", type=int, help="make only part JOB (0-based) of --jobs parts; needs --grid")
     r.add_argument("--jobs", type=int, help="number of parts the sample is split into")
     r.add_argument("--workers", type=int, help="make all parts on a local Dask cluster of this many workers")
@@ -422,14 +436,14 @@ def parser() -> argparse.ArgumentParser:
                    "refused otherwise)")
     r.set_defaults(func=_cmd_run)
     m = sub.add_parser("merge", help="merge batch parts into one sample")
-    m.add_argument("parts", nargs="+", help="part files or folders of parts")
-    m.add_argument("-o", "--output", required=True, help="folder for the merged files")
+    m.add_argument("parts", nargs="+", type=_path, help="part files or folders of parts")
+    m.add_argument("-o", "--output", required=True, type=_path, help="folder for the merged files")
     m.add_argument("--quiet", action="store_true", help="print nothing but warnings and errors")
     m.add_argument("--force", action="store_true", help="replace an earlier sample in the output folder")
     m.set_defaults(func=_cmd_merge)
     v = sub.add_parser("validate", help="compare a sample with its analytic reference; exit 1 when it fails")
-    v.add_argument("path", help="an event file or a run folder")
-    v.add_argument("--out", help="folder for the report and plots (default: <run folder>/validation)")
+    v.add_argument("path", type=_path, help="an event file or a run folder")
+    v.add_argument("--out", type=_path, help="folder for the report and plots (default: <run folder>/validation)")
     v.add_argument("--bins", type=int, default=20, help="bins per observable (default 20)")
     v.add_argument("--p-min", type=float, default=1e-4, help="smallest accepted chi-square p-value (default 1e-4)")
     v.add_argument("--pull-max", type=float, default=6.0, help="largest accepted bin pull (default 6)")
@@ -439,12 +453,12 @@ def parser() -> argparse.ArgumentParser:
     v.add_argument("--json", action="store_true", help="print the reports as JSON")
     v.set_defaults(func=_cmd_validate)
     q = sub.add_parser("plot", help="quick-look histograms of the outgoing particles")
-    q.add_argument("path", help="an event file or a run folder")
-    q.add_argument("--out", help="folder for the PNG files (default: <run folder>/plots)")
+    q.add_argument("path", type=_path, help="an event file or a run folder")
+    q.add_argument("--out", type=_path, help="folder for the PNG files (default: <run folder>/plots)")
     q.add_argument("--bins", type=int, default=40, help="bins per histogram (default 40)")
     q.set_defaults(func=_cmd_plot)
     i = sub.add_parser("info", help="describe an event file or a run folder")
-    i.add_argument("path", help="an event file, a run folder or a folder of batch parts")
+    i.add_argument("path", type=_path, help="an event file, a run folder or a folder of batch parts")
     i.add_argument("--json", action="store_true", help="machine-readable output")
     i.set_defaults(func=_cmd_info)
     p = sub.add_parser("processes", help="list the process library by model")

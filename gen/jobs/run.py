@@ -31,7 +31,7 @@ from pathlib import Path
 import numpy as np
 
 from ..card import CARD_SCHEMA_VERSION, RunConfig
-from ..errors import GenWarning, OutputError
+from ..errors import GenWarning, OutputError, UserError
 from ..files import FolderLock, LockHeld, stale_temporaries, write_atomically
 from ..physics.constants import hbar_gev_s
 from ..processes import Process, build_process, guarded
@@ -53,10 +53,22 @@ WEIGHTED_FILE = "weighted.parquet"
 CARD_COPY = "card.toml"
 #: below this unweighting efficiency a run warns and says what helps
 LOW_EFFICIENCY = 0.01
+#: share of the total carried by weights above w_max: warn above the first, refuse above the second
+OVERFLOW_WARN, OVERFLOW_REFUSE = 0.01, 0.10
+#: a sampling estimate this many standard deviations and this far (relative) from the grid's is refused
+MISMATCH_PULL, MISMATCH_REL = 10.0, 0.01
 
 
 class LowEfficiencyWarning(GenWarning):
     """Most trials of the unweighting pass were rejected."""
+
+
+class OverflowWarning(GenWarning):
+    """Some weights exceeded the maximum weight used for unweighting."""
+
+
+class SamplingError(UserError):
+    """The sample contradicts the grid it was drawn from; nothing was published."""
 
 
 @dataclass
@@ -286,6 +298,30 @@ def _occupied_message(out: Path, earlier: list[Path], job: int | None) -> str:
             f"{', '.join(p.name for p in earlier)}; give --force to replace them, or choose another folder with -o")
 
 
+def check_unweighting(stats: UnweightingStats, xs: CrossSection, max_weight: float, unit: str) -> None:
+    """Refuse a sample the grid did not describe: weights far above its maximum weight, or a mean
+    weight that contradicts its cross-section (an edited grid file, or an adaptation or
+    calibration that missed part of the phase space); warn when the excess is small but visible."""
+    share = stats.overflow_share
+    advice = ("the grid file was edited, or the calibration missed a peak of the weights: adapt again with "
+              "more sampling.calibration_points")
+    if share > OVERFLOW_REFUSE:
+        raise SamplingError(f"{stats.overflow_events} of {stats.trials} trials weigh more than the grid's maximum "
+                            f"weight {max_weight:.6g}, carrying {share:.1%} of the total: the events would not be "
+                            f"unweighted; {advice}")
+    if share > OVERFLOW_WARN:
+        warnings.warn(f"{stats.overflow_events} trials weigh more than the maximum weight {max_weight:.6g}, "
+                      f"carrying {share:.2%} of the total; their events keep weight 1, so distributions where they "
+                      f"fall are low by up to that share. {advice}", OverflowWarning, stacklevel=3)
+    est, err = stats.estimate
+    sigma = math.hypot(err, xs.error)
+    if sigma > 0 and abs(est - xs.value) > MISMATCH_PULL * sigma and abs(est - xs.value) > MISMATCH_REL * abs(xs.value):
+        raise SamplingError(f"the sampled weights give {est:.6g} ± {err:.2g} {unit} but the grid's adaptation "
+                            f"{xs.value:.6g} ± {xs.error:.2g} {unit}, {abs(est - xs.value) / sigma:.0f} standard "
+                            "deviations apart: the grid file was edited, or vegas missed part of the phase space; "
+                            "adapt again with more integration.points_per_iteration")
+
+
 def _sample(cfg, proc, grid, out, job, jobs, progress, t_start, t_adapted) -> RunResult:
     xs = grid.cross_section
     samp = cfg.sampling
@@ -324,6 +360,7 @@ def _sample(cfg, proc, grid, out, job, jobs, progress, t_start, t_adapted) -> Ru
             wr.finish(dict(base, created=now(), weighting="unweighted", cross_section=xs_rec,
                            events={"count": wr.rows, "sum_weights": wr.sum_w, "max_weight": wr.max_w},
                            unweighting=stats.as_dict()))
+            check_unweighting(stats, xs, grid.max_weight, unit)  # before anything is published
             finished.append(wr)
             timing["unweighted_s"] = time.monotonic() - t0
             if stats.efficiency < LOW_EFFICIENCY:
