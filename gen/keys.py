@@ -76,8 +76,9 @@ class Key:
             word = "at or below" if self.lo_open else "below"
             raise CardError(source, path, f"{value!r} is {word} the smallest accepted value {self.lo:g}{unit}"
                             + (" (it must be larger)" if self.lo_open else ""))
-        if self.hi is not None and value > self.hi:
-            raise CardError(source, path, f"{value!r} is above the largest accepted value {self.hi:g}{unit}")
+        if self.hi is not None and value > self.hi and not math.isinf(value):
+            raise CardError(source, path, f"{value!r} is above the largest accepted value {self.hi:g}{unit}"
+                            + (" (inf for no limit)" if self.allow_inf else ""))
 
     def _range_text(self) -> str:
         if self.lo is None and self.hi is None:

@@ -209,16 +209,16 @@ def event_files(path: str | Path) -> list[Path]:
     p = Path(path)
     if p.is_dir():
         contents = folder_contents(p)
-        if contents.unfinished:
-            names = ", ".join(f.name for f in contents.unfinished[:4]) + (" ..." if len(contents.unfinished) > 4 else "")
-            warnings.warn(f"{p}: left out {names}: no finished run's summary lists "
-                          f"{'them' if len(contents.unfinished) > 1 else 'it'} (an interrupted run, or files from "
-                          "elsewhere); rerun the card to complete the run", UnfinishedFilesWarning, stacklevel=2)
         if not contents.files:
             if contents.unfinished:
                 raise OutputError(f"{p}: no finished run here: the event files are not listed by a run summary "
                                   "(the run was interrupted or is still writing); rerun the card, or give a file's path")
             raise OutputError(f"{p}: no event files (*.parquet) in this folder")
+        if contents.unfinished:
+            names = ", ".join(f.name for f in contents.unfinished[:4]) + (" ..." if len(contents.unfinished) > 4 else "")
+            warnings.warn(f"{p}: left out {names}: no finished run's summary lists "
+                          f"{'them' if len(contents.unfinished) > 1 else 'it'} (an interrupted run, or files from "
+                          "elsewhere); rerun the card to complete the run", UnfinishedFilesWarning, stacklevel=2)
         return contents.files
     if not p.exists():
         raise OutputError(f"{p}: no such file or folder")
