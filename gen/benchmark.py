@@ -1,6 +1,7 @@
 """Benchmark: unweighted e+e- -> mu+mu- events to Parquet, end to end and by bare parts.
 
-Run as `python -m gen.benchmark` (add `--sizes 100000 1000000 10000000` for the memory check;
+Run as `python -m gen.benchmark` (add `--sizes 1000000 10000000 --allocator both` for the memory
+check, with gen's allocator setting and glibc's default side by side;
 `--dask 4000000` measures the speed-up on 1 and 2 local Dask workers instead).
 For each size it starts a fresh Python process, so peak memory (max RSS) is that size's alone,
 and prints:
@@ -26,6 +27,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import resource
 import statistics
 import subprocess
@@ -104,12 +106,9 @@ def _dask(n: int, parts: int) -> None:
     """Wall time of n unweighted events in `parts` parts on 1 and 2 local Dask workers (cluster
     start timed apart), the same parts made one after another in this process, and the fixed
     cost per part measured with many tiny parts."""
-    from dask.distributed import Client, LocalCluster
-
-    import dask
     from gen.card import parse_card
     from gen.jobs.run import run
-    from gen.jobs.distributed import local_cluster_config, run_parts_on_dask
+    from gen.jobs.distributed import local_cluster, run_parts_on_dask
     from gen.sampling.grid import Grid, make_grid
     from gen.processes import build_process
 
@@ -127,10 +126,9 @@ def _dask(n: int, parts: int) -> None:
         tiny_grid = make_grid(build_process(tiny), tiny).save(Path(tmp) / "tiny.json")
         for workers in (1, 2):
             t0 = time.perf_counter()
-            with dask.config.set(local_cluster_config()), LocalCluster(
-                    n_workers=workers, threads_per_worker=1, dashboard_address=None) as cl, Client(cl) as client:
+            with local_cluster(workers) as client:
                 start = time.perf_counter() - t0
-                client.run(lambda: __import__("gen.run"))  # the workers' own imports, not timed below
+                client.run(lambda: __import__("gen.jobs.run"))  # the workers' own imports, not timed below
                 times = []
                 for r in range(3):
                     folder = Path(tmp) / f"w{workers}-{r}"
@@ -285,6 +283,9 @@ def main(argv=None) -> int:
     ap.add_argument("--pdf", action="store_true", help="instead: parton-density evaluations per second")
     ap.add_argument("--hadron", type=int, metavar="N", help="instead: N unweighted dijet and Drell-Yan events at 13.6 TeV")
     ap.add_argument("--startup", action="store_true", help="instead: start-up time of commands")
+    ap.add_argument("--allocator", choices=("auto", "tuned", "system", "both"), default="auto",
+                    help="gen's choice (fixed mmap threshold from gen.memory.LARGE_RUN events), always fixed, "
+                         "glibc's own dynamic one, or fixed and glibc's side by side")
     args = ap.parse_args(argv)
     if args.startup:
         _startup(args.repeat)
@@ -301,18 +302,22 @@ def main(argv=None) -> int:
     if args.one:
         print(json.dumps(_one(args.one, args.repeat)))
         return 0
-    print(f"{'events':>10} {'end-to-end':>11} {'events/s':>10} {'integrand':>10} {'plain write':>12} "
+    print(f"{'allocator':>9} {'events':>10} {'end-to-end':>11} {'events/s':>10} {'integrand':>10} {'plain write':>12} "
           f"{'ratio':>6} {'peak RSS':>9} {'efficiency':>10}")
+    allocators = ("tuned", "system") if args.allocator == "both" else (args.allocator,)
     for n in args.sizes:
-        rep = args.repeat if n <= 2_000_000 else 1
-        r = subprocess.run([sys.executable, "-m", "gen.benchmark", "--one", str(n), "--repeat", str(rep)],
-                           capture_output=True, text=True, check=True)
-        d = json.loads(r.stdout.strip().splitlines()[-1])
-        pw = f"{d['plain_write_s']:.2f} s" if "plain_write_s" in d else "-"
-        ratio = f"{d['ratio_to_bare_parts']:.2f}" if "ratio_to_bare_parts" in d else "-"
-        print(f"{n:>10} {d['end_to_end_s']:>9.2f} s {d['events_per_s']:>10.0f} {d['integrand_alone_s']:>8.2f} s "
-              f"{pw:>12} {ratio:>6} {d['peak_rss_MB']:>6.0f} MB {d['efficiency']:>10.1%}")
-        sys.stdout.flush()
+        for alloc in allocators:
+            rep = args.repeat if n <= 2_000_000 else 1
+            env = dict(os.environ, GEN_ALLOCATOR=alloc)
+            r = subprocess.run([sys.executable, "-m", "gen.benchmark", "--one", str(n), "--repeat", str(rep)],
+                               capture_output=True, text=True, check=True, env=env)
+            d = json.loads(r.stdout.strip().splitlines()[-1])
+            pw = f"{d['plain_write_s']:.2f} s" if "plain_write_s" in d else "-"
+            ratio = f"{d['ratio_to_bare_parts']:.2f}" if "ratio_to_bare_parts" in d else "-"
+            print(f"{alloc:>9} {n:>10} {d['end_to_end_s']:>9.2f} s {d['events_per_s']:>10.0f} "
+                  f"{d['integrand_alone_s']:>8.2f} s {pw:>12} {ratio:>6} {d['peak_rss_MB']:>6.0f} MB "
+                  f"{d['efficiency']:>10.1%}")
+            sys.stdout.flush()
     return 0
 
 

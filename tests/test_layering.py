@@ -14,7 +14,7 @@ PACKAGE = Path(__file__).parent.parent / "gen"
 
 #: layer of each module or subpackage (a prefix); a module may import from its layer and below
 LAYERS = {
-    "gen.version": 0, "gen.errors": 0, "gen.keys": 0, "gen.files": 0, "gen.progress": 0,
+    "gen.version": 0, "gen.errors": 0, "gen.keys": 0, "gen.files": 0, "gen.memory": 0, "gen.progress": 0,
     "gen.physics": 1,
     "gen.card": 2,
     "gen.processes": 3,

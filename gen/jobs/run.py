@@ -32,6 +32,7 @@ import numpy as np
 
 from ..card import CARD_SCHEMA_VERSION, RunConfig
 from ..errors import GenWarning, OutputError, UserError
+from ..memory import tune_allocator
 from ..files import FolderLock, LockHeld, stale_temporaries, write_atomically
 from ..physics.constants import hbar_gev_s
 from ..processes import Process, build_process, guarded
@@ -345,6 +346,7 @@ def _sample(cfg, proc, grid, out, job, jobs, progress, t_start, t_adapted) -> Ru
     finished: list[EventWriter] = []
     n_unw = part_sizes(samp["events"], jobs)[index]
     n_w = part_sizes(samp["weighted_events"], jobs)[index]
+    tune_allocator(n_unw + n_w)  # resident memory flat in long runs (see gen.memory)
     with contextlib.ExitStack() as stack:  # any failure removes every unpublished file
         if n_unw > 0:
             t0 = time.monotonic()
