@@ -32,7 +32,7 @@ from .physics.kinematics import two_body_momentum
 from .physics.matrix import MODELS, Ordering, Subprocess, find_process, find_subprocesses
 from .physics.particles import HADRON_PARTONS, Species, lookup, species
 
-__all__ = ["RunConfig", "Resolved", "DecayStep", "load_card", "parse_card", "SPEC", "RULES", "reference_markdown",
+__all__ = ["RunConfig", "Resolved", "DecayStep", "load_card", "parse_card", "parse_doc", "SPEC", "RULES", "reference_markdown",
            "CARD_SCHEMA_VERSION", "SCALE_CHOICES"]
 
 #: version of the card format (sections, keys and rules); written into every run record
@@ -786,7 +786,11 @@ def _toml(text: str, source: str) -> dict:
 
 def parse_card(text: str, source: str = "<card>") -> RunConfig:
     """Validate card text (TOML) and return its RunConfig, or raise CardError."""
-    doc = _toml(text, source)
+    return parse_doc(_toml(text, source), source, text)
+
+
+def parse_doc(doc: dict, source: str, text: str) -> RunConfig:
+    """Validate a card already read from TOML (`text` is kept as the card's text)."""
     d = _Draft(source, text, doc)
     for k in doc:
         if k not in SECTIONS:

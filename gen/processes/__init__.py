@@ -4,18 +4,19 @@ make its events, behind one declared interface (`gen.processes.interface.Process
 from __future__ import annotations
 
 from ..card import RunConfig
-from .guard import IntegrandError, guarded, probe
+from .guard import IntegrandError, check_effects, guarded, probe
 from .interface import CannotValidate, Channel, EventData, Measure, ParticleLayout, Process, ValidationPlan
 
 __all__ = ["build_process", "Process", "Channel", "Measure", "EventData", "ParticleLayout", "ValidationPlan",
            "CannotValidate", "IntegrandError", "guarded"]
 
 
-def build_process(cfg: RunConfig) -> Process:
+def build_process(cfg: RunConfig, checks: bool = True) -> Process:
     """The process of a validated card (raises CardError where the phase space cannot be built, and
     IntegrandError where the integrand cannot be sampled): a `TwoToTwo` or `ManyBody` at fixed beam
     energies, a `DecayAtRest`, or a `HadronCollision`, wrapped in `WithDecays` when the card decays
-    particles."""
+    particles. `checks=False` leaves out the probe of the integrand and the check that every model
+    parameter the card sets has an effect (`gen.processes.guard`)."""
     if cfg.hadron_beams:
         from .hadron import HadronCollision
 
@@ -32,5 +33,7 @@ def build_process(cfg: RunConfig) -> Process:
         from .decays import WithDecays
 
         proc = WithDecays(proc)
-    probe(proc)
+    if checks:
+        probe(proc)
+        check_effects(proc, lambda c: build_process(c, checks=False))
     return proc

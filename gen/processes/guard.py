@@ -15,10 +15,12 @@ from ..card import CUT_DEFAULTS
 from ..errors import CardError
 from ..physics.matrix import MODELS
 
-__all__ = ["IntegrandError", "probe", "guarded"]
+__all__ = ["IntegrandError", "probe", "guarded", "check_effects"]
 
 #: points of the probe before adaptation
 PROBE_POINTS = 4096
+#: points on which a model parameter's effect is looked for
+EFFECT_POINTS = 512
 
 
 class IntegrandError(CardError):
@@ -74,6 +76,79 @@ def probe(proc) -> None:
         w = _check(proc, proc.weights(rng.random((PROBE_POINTS, proc.ndim))))
     if not (w > 0).any():
         raise _diagnose(proc, "zero")
+
+
+def _perturbed(value, key):
+    """A nearby value of the same kind, to see whether a parameter changes anything."""
+    if isinstance(value, bool):
+        return not value
+    if isinstance(value, (int, float)):
+        return value * 1.01 if value != 0 else 0.01
+    if isinstance(value, str) and getattr(key, "choices", ()):
+        others = [c for c in key.choices if c != value]
+        return others[0] if others else None
+    return None
+
+
+def _given_parameters(doc: dict):
+    """(card key path, path in the TOML document) of every model parameter, mass and width the card sets."""
+    table = doc.get("parameters", {})
+    for k, v in table.items():
+        if k in ("masses", "widths") and isinstance(v, dict):
+            for name in v:
+                yield f"parameters.{k}.{name}", ("parameters", k, name)
+        else:
+            yield f"parameters.{k}", ("parameters", k)
+
+
+def _fingerprint(proc, x: np.ndarray) -> tuple:
+    with np.errstate(all="ignore"):
+        w = proc.weights(x)
+        ev = proc.events(x, np.random.default_rng(0))
+    return w, ev.momenta
+
+
+def check_effects(proc, build) -> None:
+    """Refuse a model parameter, mass or width the card sets that changes neither the integrand
+    nor the events of this process: moved slightly, it leaves both identical on EFFECT_POINTS
+    points (a W width in e+e- -> mu+mu-, a Cabibbo angle in a neutral-current process).
+    `build(cfg)` builds a process without the checks."""
+    import copy
+    import tomllib
+
+    from ..card import parse_doc
+
+    cfg = proc.cfg
+    if not cfg.parameters and not cfg.masses and not cfg.widths:
+        return
+    doc = tomllib.loads(cfg.text)
+    params = MODELS[cfg.model].params
+    rng = np.random.default_rng(np.random.SeedSequence(cfg.sampling["seed"], spawn_key=(3,)))
+    x = rng.random((EFFECT_POINTS, proc.ndim))
+    reference = None
+    for card_key, path in _given_parameters(doc):
+        node = doc
+        for k in path[:-1]:
+            node = node[k]
+        moved = _perturbed(node[path[-1]], params.get(path[-1]) if len(path) == 2 else None)
+        if moved is None:
+            continue
+        variant = copy.deepcopy(doc)
+        target = variant
+        for k in path[:-1]:
+            target = target[k]
+        target[path[-1]] = moved
+        try:
+            other = build(parse_doc(variant, cfg.source, cfg.text))
+            if other.ndim != proc.ndim:
+                continue
+            reference = reference or _fingerprint(proc, x)
+            changed = _fingerprint(other, x)
+        except Exception:  # the moved value is not a valid card or process: it has an effect
+            continue
+        if all(np.array_equal(a, b, equal_nan=True) for a, b in zip(reference, changed)):
+            raise CardError(cfg.source, card_key, f"has no effect on {cfg.label} (the integrand and the events are "
+                            "the same whatever its value); leave it out")
 
 
 def guarded(proc):
