@@ -472,10 +472,13 @@ def main(argv: list[str] | None = None) -> int:
     args = parser().parse_args(argv)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
+        rc = 3
         try:
-            return _dispatch(args)
+            rc = _dispatch(args)
+            return rc
         finally:
-            _print_warnings(caught)
+            if rc not in (2, 3):  # a refused or failed command says one line: its error
+                _print_warnings(caught)
 
 
 def _dispatch(args) -> int:
