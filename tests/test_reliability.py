@@ -132,6 +132,34 @@ def test_control_characters_in_card_keys_are_escaped(tmp_path):
     assert "\x1b" not in err and "\\x1b" in err
 
 
+def test_rounding_below_zero_is_zero_but_a_negative_density_is_refused():
+    """Densities interpolated towards x -> 1 came out at -1e-30 beside weights of order 0.1 (top
+    pairs at the sqrt_shat scale, seed 1): a rounding error, set to zero; a weight that is
+    negative at the size of the others is a negative density and refused."""
+    import numpy as np
+
+    from gen.card import parse_card
+    from gen.processes import build_process
+    from gen.processes.guard import IntegrandError, guarded
+
+    text = card("qcd", ("p", "p"), ("t", "tbar"), "sqrt_s = 13600.0", '[scales]\nrenormalization = "sqrt_shat"\n'
+                'factorization = "sqrt_shat"', "seed = 1")
+    proc = build_process(parse_card(text, "c.toml"))  # the probe met -1.3e-30 and accepted it
+
+    class Fake:
+        cfg = proc.cfg
+
+        def __init__(self, w):
+            self.w = w
+
+        def weights(self, x):
+            return self.w.copy()
+
+    assert guarded(Fake(np.array([0.2, -1e-30, 0.1])))(None).tolist() == [0.2, 0.0, 0.1]
+    with pytest.raises(IntegrandError, match="negative"):
+        guarded(Fake(np.array([0.2, -1e-3, 0.1])))(None)
+
+
 # ---------------------------------------------------------------------------------------------
 # grids: checked against the process, every number validated, a sample that contradicts them refused
 
