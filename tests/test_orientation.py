@@ -1,0 +1,129 @@
+"""Orientation and charge at hadron colliders: angular distributions in the parton centre-of-mass
+frame against their analytic shapes, the colour flow of q q -> q q against its leading-colour
+weights, from the events gen writes.
+
+Outside references, named beside each check: the V-A decay distributions of W bosons made in
+q qbar' annihilation (Ellis, Stirling & Webber, QCD and Collider Physics (1996), sec. 9.2: the
+charged lepton of W+ follows the antiquark, d sigma / d cos theta ~ (1 - cos theta)^2 against the
+quark, mean cos theta = -1/2; the opposite sign for W-; from memory, the mean derived below); the
+q q -> q q colour decomposition (the t-channel flow weighted by (s^2 + u^2)/t^2, the u-channel one
+by (s^2 + t^2)/u^2; Ellis, Stirling & Webber (1996) ch. 7, from memory).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from gen.card import parse_card
+from gen.jobs.run import run
+from gen.records.store import read_table
+
+from conftest import card
+
+SQRT_S = 13600.0
+FAST = "[integration]\nwarmup_iterations = 3\niterations = 4\npoints_per_iteration = 8000"
+
+
+def _events(tmp_path, outgoing, extra, weighted=60000, seed=11):
+    text = card("electroweak" if "jet" not in outgoing else "qcd", ["p", "p"], outgoing, f"sqrt_s = {SQRT_S}",
+                extra + "\n" + FAST, f"events = 0\nweighted_events = {weighted}\nseed = {seed}")
+    run(parse_card(text, "orientation.toml"), tmp_path / "out")
+    table = read_table(tmp_path / "out" / "weighted.parquet")
+    parts = table.column("particles").combine_chunks().flatten()
+    n = table.num_rows
+    p = np.stack([parts.field(c).to_numpy() for c in ("e", "px", "py", "pz")], -1).reshape(n, -1, 4)
+    pdg = parts.field("pdg").to_numpy().reshape(n, -1)
+    return p, pdg, table.column("weight").to_numpy(), table
+
+
+def _cos_in_parton_frame(p, a: int, b: int) -> np.ndarray:
+    """cos of the angle between particle a and incoming particle b in the frame where the two
+    incoming partons (slots 0 and 1, along z) have no total momentum: a boost along z."""
+    tot = p[:, 0] + p[:, 1]
+    beta = tot[:, 3] / tot[:, 0]
+    gamma = 1.0 / np.sqrt(1.0 - beta * beta)
+
+    def boosted(v):
+        e = gamma * (v[:, 0] - beta * v[:, 3])
+        pz = gamma * (v[:, 3] - beta * v[:, 0])
+        return np.stack([e, v[:, 1], v[:, 2], pz], 1)
+
+    va, vb = boosted(p[:, a]), boosted(p[:, b])
+    num = (va[:, 1:] * vb[:, 1:]).sum(1)
+    return num / np.linalg.norm(va[:, 1:], axis=1) / np.linalg.norm(vb[:, 1:], axis=1)
+
+
+def _weighted_mean(x, w):
+    mean = np.sum(w * x) / np.sum(w)
+    err = np.sqrt(np.sum(w * w * (x - mean) ** 2)) / np.sum(w)
+    return mean, err
+
+
+def test_the_v_minus_a_mean_is_minus_one_half():
+    """<cos> = int c (1 - c)^2 dc / int (1 - c)^2 dc over [-1, 1] = (-4/3) / (8/3) (the shape of
+    the module docstring, integrated exactly with numpy's polynomials)."""
+    shape = np.polynomial.Polynomial([1.0, -2.0, 1.0])  # (1 - c)^2
+    first = (shape * np.polynomial.Polynomial([0.0, 1.0])).integ()
+    norm = shape.integ()
+    assert (first(1) - first(-1)) / (norm(1) - norm(-1)) == pytest.approx(-0.5, abs=1e-15)
+
+
+@pytest.mark.parametrize("outgoing, lepton_pdg, sign", [(["l+", "nu"], (-11, -13), -1.0),
+                                                       (["l-", "nubar"], (11, 13), +1.0)])
+def test_w_decay_angle_against_v_minus_a(outgoing, lepton_pdg, sign, tmp_path):
+    """W+: <cos theta(l+, quark)> = -1/2; W-: <cos theta(l-, quark)> = +1/2, in the parton frame
+    (no cuts on the angles: the pair-mass window does not bias them)."""
+    p, pdg, w, _ = _events(tmp_path, outgoing, "[cuts]\nmass_min = 60.0\nmass_max = 100.0")
+    quark_slot = np.where(pdg[:, 0] > 0, 0, 1)  # the incoming quark (not the antiquark)
+    lep = np.where(np.isin(pdg[:, 2], lepton_pdg), 2, 3)
+    assert np.all(np.isin(pdg[np.arange(len(pdg)), lep], lepton_pdg))
+    c = np.empty(len(w))
+    for qs in (0, 1):
+        for ls in (2, 3):
+            sel = (quark_slot == qs) & (lep == ls)
+            if sel.any():
+                c[sel] = _cos_in_parton_frame(p[sel], ls, qs)
+    mean, err = _weighted_mean(c, w)
+    assert abs(mean - sign * 0.5) < 5 * err + 0.005, (mean, err)
+
+
+def test_w_decay_angle_distribution_has_the_v_minus_a_shape(tmp_path):
+    """The binned distribution of cos theta(l+, quark) in W+ events against (3/8)(1 - c)^2 per unit c."""
+    p, pdg, w, _ = _events(tmp_path, ["l+", "nu"], "[cuts]\nmass_min = 60.0\nmass_max = 100.0", seed=12)
+    quark_slot = np.where(pdg[:, 0] > 0, 0, 1)
+    lep = np.where(np.isin(pdg[:, 2], (-11, -13)), 2, 3)
+    c = np.array([_cos_in_parton_frame(p[i:i + 1], lep[i], quark_slot[i])[0] for i in range(len(w))])
+    edges = np.linspace(-1, 1, 11)
+    h, _ = np.histogram(c, edges, weights=w)
+    h2, _ = np.histogram(c, edges, weights=w * w)
+    expected = w.sum() * np.diff(((edges - 1) ** 3) / 8.0)  # int (3/8)(1 - c)^2 dc = (c - 1)^3 / 8
+    pulls = (h - expected) / np.sqrt(h2 + 1e-300)
+    assert np.all(np.abs(pulls) < 5), pulls
+
+
+def test_quark_quark_colour_flows_follow_the_leading_colour_weights(tmp_path):
+    """In u u -> u u, a t-channel gluon (t = (p0 - p2)^2) carries the colour of incoming quark 0
+    across to outgoing quark 3 (in double-line notation the exchanged gluon takes the colour of one
+    line to the other; common practice, no source), so that flow is chosen with probability
+    A_t / (A_t + A_u), A_t = (s^2 + u^2)/t^2, A_u = (s^2 + t^2)/u^2."""
+    text_cuts = "[cuts]\npt_min = 200.0"
+    p, pdg, w, table = _events(tmp_path, ["jet", "jet"], text_cuts, weighted=60000, seed=13)
+    parts = table.column("particles").combine_chunks().flatten()
+    col = parts.field("colour").to_numpy().reshape(len(w), -1)
+    uu = np.all(pdg == 2, axis=1)
+    assert uu.sum() > 500
+    p, col, w = p[uu], col[uu], w[uu]
+    s = 2.0 * (p[:, 0, 0] * p[:, 1, 0] - (p[:, 0, 1:] * p[:, 1, 1:]).sum(1))
+    t = -2.0 * (p[:, 0, 0] * p[:, 2, 0] - (p[:, 0, 1:] * p[:, 2, 1:]).sum(1))
+    u = -s - t
+    a_t, a_u = (s * s + u * u) / (t * t), (s * s + t * t) / (u * u)
+    follows_t = (col[:, 0] == col[:, 3]).astype(float)  # incoming 0's colour goes to outgoing slot 3
+    expected = a_t / (a_t + a_u)
+    # per event a Bernoulli draw with probability e: sum (chosen - e)(2e - 1) has mean 0 and variance
+    # sum e (1 - e)(2e - 1)^2; with the two weights swapped its mean would be -sum (2e - 1)^2
+    lever = 2.0 * expected - 1.0
+    stat = np.sum((follows_t - expected) * lever)
+    sd = np.sqrt(np.sum(expected * (1 - expected) * lever * lever))
+    assert abs(stat) < 5 * sd, (stat, sd)
+    assert np.sum(lever * lever) > 20 * sd  # the test separates the right weights from swapped ones
