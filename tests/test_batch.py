@@ -143,6 +143,7 @@ def test_grid_files_are_checked(tmp_path, grid_file):
         gen.run(other, folder=tmp_path / "x", grid=Grid.load(grid_file), job=0, jobs=2)
 
 
+@pytest.mark.slow
 def test_sigkill_during_writing_then_rerun_completes(tmp_path, grid_file):
     """A part killed at any moment leaves nothing that looks complete; a rerun redoes it."""
     big = TEXT.replace("events = 9000", "events = 3000000").replace("chunk = 2000", "chunk = 50000")
@@ -184,6 +185,7 @@ def test_job_without_grid_is_a_user_error(tmp_path):
     assert r.returncode == 2 and "--job needs --grid" in r.stderr
 
 
+@pytest.mark.slow
 def test_dask_route_equals_the_batch_route(tmp_path, grid_file):
     pytest.importorskip("dask.distributed")
     from gen.jobs.distributed import run_parts_on_dask

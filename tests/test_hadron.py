@@ -416,6 +416,7 @@ def _dijet_reference(pt_min, eta_max, n=400_000, seed=4, states=None, alpha=None
     return w.mean(), w.std() / math.sqrt(n)
 
 
+@pytest.mark.slow
 def test_dijet_cross_section_against_an_independent_sum():
     """p p -> jet jet, pT > 250 GeV, |eta| < 2.8 (the demo card): vegas against the plain Monte Carlo
     above, which shares only the parton densities: its own channel list from ESW Table 7.1
@@ -425,6 +426,7 @@ def test_dijet_cross_section_against_an_independent_sum():
     assert abs(xs.value - ref) <= 5 * math.hypot(xs.error, err), (xs.value, xs.error, ref, err)
 
 
+@pytest.mark.slow
 def test_prompt_photon_cross_section_against_an_independent_sum():
     """p p -> gamma jet, pT > 60 GeV, |eta| < 2.4, Delta R > 0.4 (the demo card; back to back, Delta R
     is always pi or more): vegas against the same plain Monte Carlo with the photon channels above."""
@@ -453,6 +455,7 @@ def test_alpha_s_of_a_hadron_card_is_set_under_partons():
                                  "bad.toml"))
 
 
+@pytest.mark.slow
 def test_gen_validate_checks_drell_yan_samples(drell_yan, tmp_path):
     """`gen validate` on the Drell-Yan sample passes against its reference (the same textbook partonic
     formula times the luminosity, on a Gauss-Legendre grid in M and y), and fails when the file's

@@ -48,6 +48,7 @@ def test_the_readme_has_runnable_blocks():
     assert langs.count("sh") >= 2 and langs.count("python") >= 3 and langs.count("toml") >= 2
 
 
+@pytest.mark.slow
 def test_every_block_runs_as_written(scratch):
     env = dict(os.environ, PYTHONWARNINGS="ignore", PATH=f"{Path(sys.executable).parent}{os.pathsep}{os.environ['PATH']}")
     for lang, body, mark in _blocks():

@@ -393,6 +393,7 @@ def test_a_concurrent_run_is_refused_naming_the_holder_and_a_stale_lock_is_taken
     assert not (out / ".gen-lock-run").exists()
 
 
+@pytest.mark.slow
 def test_two_runs_started_together_do_not_both_succeed_silently(tmp_path):
     path = tmp_path / "c.toml"
     path.write_text(QED.replace("events = 300", "events = 200000"))
@@ -455,6 +456,7 @@ def _no_partial_files(folder: Path) -> None:
         assert [p.name for p in folder.iterdir() if ".partial-" in p.name] == []
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [1, 2, 3])
 def test_a_run_killed_at_a_random_moment_reruns_to_identical_files(seed, kill_reference, tmp_path):
     delay = random.Random(seed).uniform(0.3, 3.0)
@@ -471,6 +473,7 @@ def test_a_run_killed_at_a_random_moment_reruns_to_identical_files(seed, kill_re
         _tables_equal(out / name, kill_reference / "ref" / name)
 
 
+@pytest.mark.slow
 @pytest.mark.parametrize("seed", [1, 2])
 def test_a_merge_killed_at_a_random_moment_reruns_to_identical_files(seed, kill_reference, tmp_path):
     parts = kill_reference / "parts"
@@ -569,6 +572,7 @@ def test_a_bad_scheduler_address_is_refused_before_anything_is_written(tmp_path)
         assert not (tmp_path / "out").exists()
 
 
+@pytest.mark.slow
 def test_the_local_dask_cluster_is_unreachable_without_its_credentials():
     pytest.importorskip("dask.distributed")
     pytest.importorskip("cryptography")

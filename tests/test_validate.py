@@ -39,6 +39,7 @@ GOOD = {
 MUMU = card("qed", ("e-", "e+"), ("mu-", "mu+"), "sqrt_s = 10.0", INTEG, SAMPLING)
 
 
+@pytest.mark.slow
 @pytest.mark.filterwarnings("ignore::gen.jobs.run.LowEfficiencyWarning")  # the three-parton card's small grid
 @pytest.mark.parametrize("name", list(GOOD))
 def test_validation_passes_on_good_samples(name, tmp_path):
@@ -105,6 +106,7 @@ def _png_size(path):
     return len(data), width, height
 
 
+@pytest.mark.slow
 def test_plots_are_valid_pngs_and_the_command_reports(tmp_path):
     res = gen.run(parse_card(GOOD["mumu-asymmetric"], "m.toml"), folder=tmp_path / "run")
     r = subprocess.run([sys.executable, "-m", "gen.cli", "validate", str(tmp_path / "run"), "--out",
