@@ -75,6 +75,8 @@ MUTATIONS = [
              "return 4.0 / 9.0 * (s * s + u * u) / (s * u)", ("tests/test_qcd.py", "tests/test_hadron.py")),
     Mutation("W-width-denominator", WIDTHS, "m_w**3 / (6.0 * _SQRT2 * math.pi)", "m_w**3 / (12.0 * _SQRT2 * math.pi)",
              ("tests/test_widths.py",)),
+    Mutation("top-width-helicity-factor", WIDTHS, "(1.0 - x) ** 2 * (1.0 + 2.0 * x)", "(1.0 - x) ** 2 * (1.0 + x)",
+             ("tests/test_widths.py",)),
     Mutation("Z-width-axial-beta", WIDTHS, "(3.0 - b * b) / 2.0 * v * v + b * b * a * a",
              "(3.0 - b * b) / 2.0 * v * v + b * a * a", ("tests/test_widths.py",)),
     Mutation("bhabha-interference-sign", QED, "+ 2.0 * u * u / (s * t) +", "- 2.0 * u * u / (s * t) +",

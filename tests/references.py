@@ -35,9 +35,23 @@ GAMMA_LL_PDG = 0.083984
 GAMMA_Z_PDG = 2.4952
 M_Z_PDG = 91.1876
 
-#: Klein-Nishina totals (barn) for a free electron at rest at photon energies in MeV, computed
-#: from the Klein-Nishina formula (shared check values; computed).
-KLEIN_NISHINA_BARN = {0.1: 0.4927, 0.511: 0.2865, 1.0: 0.2112, 10.0: 0.0510}
+#: LEP hadronic pole cross-section (nb) and R_l = Gamma_had / Gamma_ll, PDG / LEP-SLC, Phys. Rept.
+#: 427 (2006) 257 (from memory): sigma0_mumu = SIGMA0_HAD_NB / R_L_PDG
+SIGMA0_HAD_NB = 41.480
+R_L_PDG = 20.767
+
+
+def klein_nishina_by_quadrature(k: float, r_e_fm: float = R_E_FM) -> float:
+    """The total Compton cross-section (fm^2) as scipy.integrate's integral of the Klein-Nishina
+    dsigma/dOmega = (r_e^2/2) P^2 (P + 1/P - sin^2 theta), P = 1/(1 + k (1 - cos theta))
+    (Klein & Nishina, Z. Phys. 52 (1929) 853): a computation of its own beside the closed form."""
+    import scipy.integrate as si
+
+    def density(c):
+        p = 1.0 / (1.0 + k * (1.0 - c))
+        return 0.5 * r_e_fm**2 * p * p * (p + 1.0 / p - (1.0 - c * c)) * 2.0 * math.pi
+
+    return si.quad(density, -1.0, 1.0, epsabs=0, epsrel=1e-12)[0]
 
 
 def klein_nishina(k: float, r_e_fm: float = R_E_FM) -> float:
