@@ -153,12 +153,17 @@ def test_w_plus_cross_section_against_a_scipy_integral():
 
 
 def test_gluon_fusion_higgs_against_the_gluon_luminosity():
-    """sigma(g g -> H) = sigma_0 tau_H int dy g(x1) g(x2), sigma_0 = G_F alpha_s(m_H)^2 / (288 sqrt2 pi),
-    heavy-top limit, scales at m_H (Djouadi, Phys. Rept. 457 (2008) 1; from memory)."""
+    """sigma(g g -> H) = sigma_0 tau_H int dy g(x1) g(x2) with sigma_0 m_H^2 derived here from the
+    decay width, sigma-hat(g g -> H) = pi^2 Gamma(H -> g g) / (8 m_H) delta(s-hat - m_H^2) (the
+    resonance relation with the gluons' 2 x 2 spins and 8 x 8 colours averaged; same paper), and
+    Gamma(H -> g g) = G_F alpha_s^2 m_H^3 / (36 sqrt2 pi^3) in the heavy-top limit (Spira, Djouadi,
+    Graudenz & Zerwas, Nucl. Phys. B453 (1995) 17, the LO width; from memory): a different formula
+    from the library's production |M|^2. Scales at m_H."""
     proc, xs = integrate(hadron_card("electroweak", ["H"]))
     mh = proc.params["m_H"]
     a_s = float(pdf.load().alpha_s(mh)[0])
-    sigma0 = HBARC2_PB * proc.params["g_fermi"] * a_s**2 / (288 * math.sqrt(2) * math.pi)
+    width_gg = proc.params["g_fermi"] * a_s**2 * mh**3 / (36 * math.sqrt(2) * math.pi**3)
+    sigma0 = HBARC2_PB * math.pi**2 * width_gg / (8 * mh) / mh**2
     tau = mh * mh / S
     ref = sigma0 * tau * luminosity(tau, mh, [(21, 21)])
     assert within(xs.value, xs.error, ref, k=5, rel_floor=1e-6), (xs.value, xs.error, ref)
