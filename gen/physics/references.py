@@ -101,7 +101,7 @@ def klein_nishina(c, s, par):
 
 def _pair_annihilation_form(t, u, m, alpha):
     """The e+e- <-> gamma gamma spin sum, Jauch & Rohrlich, The Theory of Photons and Electrons
-    (1976), sec. 12-6 (from memory): 2 e^4 [(u-m^2)/(t-m^2) + (t-m^2)/(u-m^2) - 4m^2 (1/(t-m^2) + 1/(u-m^2))
+    (1976), sec. 12-6 (recalled; checked against Dirac traces in tests/test_references.py): 2 e^4 [(u-m^2)/(t-m^2) + (t-m^2)/(u-m^2) - 4m^2 (1/(t-m^2) + 1/(u-m^2))
     - 4 m^4 (1/(t-m^2) + 1/(u-m^2))^2]."""
     a, b = t - m * m, u - m * m
     r = 1 / a + 1 / b

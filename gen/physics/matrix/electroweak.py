@@ -138,7 +138,7 @@ def higgs_strahlung(s, t, u, par):
 def muon_decay(p, par):
     """mu-(p1) -> e-(p2) nubar_e(p3) nu_mu(p4) in the four-fermion (V - A) limit, m_W -> infinity:
     (1/2) sum |M|^2 = 64 G_F^2 (p1.p3)(p2.p4) (Griffiths, Introduction to Elementary Particles,
-    2nd ed. (2008), sec. 10.3; from memory). Integrated it gives Gamma = G_F^2 m^5/(192 pi^3) f(m_e^2/m^2)
+    2nd ed. (2008), sec. 10.3; recalled, and its width checked against the formula in tests/test_widths.py). Integrated it gives Gamma = G_F^2 m^5/(192 pi^3) f(m_e^2/m^2)
     and the Michel electron spectrum x^2 (3 - 2x) for m_e -> 0. The same form holds for
     mu+ -> e+ nu_e nubar_mu with the particles conjugated."""
     gf = par["g_fermi"]
