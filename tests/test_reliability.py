@@ -659,7 +659,8 @@ def test_an_effective_parameter_is_accepted(model, key):
     from gen.card import parse_card
     from gen.processes import build_process
 
-    build_process(parse_card(EFFECTIVE[(model, key)], "c.toml"))
+    proc = build_process(parse_card(EFFECTIVE[(model, key)], "c.toml"))  # a refusal raises CardError
+    assert key in proc.cfg.parameters
 
 
 @pytest.mark.parametrize("name", list(INEFFECTIVE))
