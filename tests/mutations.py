@@ -77,6 +77,8 @@ MUTATIONS = [
              ("tests/test_widths.py",)),
     Mutation("top-width-helicity-factor", WIDTHS, "(1.0 - x) ** 2 * (1.0 + 2.0 * x)", "(1.0 - x) ** 2 * (1.0 + x)",
              ("tests/test_widths.py",)),
+    Mutation("W-charge-partons-swapped", EW, 'for _up, _down in (("u", "d"), ("u", "s"), ("c", "d"), ("c", "s")):',
+             'for _down, _up in (("u", "d"), ("u", "s"), ("c", "d"), ("c", "s")):', ("tests/test_orientation.py",)),
     Mutation("Z-width-axial-beta", WIDTHS, "(3.0 - b * b) / 2.0 * v * v + b * b * a * a",
              "(3.0 - b * b) / 2.0 * v * v + b * a * a", ("tests/test_widths.py",)),
     Mutation("bhabha-interference-sign", QED, "+ 2.0 * u * u / (s * t) +", "- 2.0 * u * u / (s * t) +",

@@ -180,3 +180,47 @@ def test_drell_yan_forward_backward_asymmetry_against_the_gamma_z_formula(window
     # the sign of the muon-pair asymmetry measured below and above the Z (see _afb_lever)
     if window != (66.0, 116.0):
         assert np.sign(mean_expect) == (-1 if hi < 91 else 1)
+
+
+def test_w_charge_asymmetry_in_rapidity_against_the_luminosity_ratio(tmp_path):
+    """d sigma(W+)/dy over d sigma(W-)/dy = [u(x1) dbar(x2) + dbar(x1) u(x2) + c sbar + sbar c] /
+    [d(x1) ubar(x2) + ubar(x1) d(x2) + s cbar + cbar s], x1,2 = (m_W / sqrt s) e^(+-y), densities
+    of the same set at mu = m_W, no Cabibbo mixing: at leading order both charges have the same
+    partonic cross-section (common practice, no source). The proton's u/d excess makes W+ more
+    frequent, the more so at large |y| where one x is large."""
+    from gen.physics import pdf
+
+    cuts = "[cuts]\nmass_min = 70.0\nmass_max = 90.0"
+    p_plus, _, w_plus, t_plus = _events(tmp_path / "plus", ["l+", "nu"], cuts, weighted=60000, seed=31)
+    p_minus, _, w_minus, t_minus = _events(tmp_path / "minus", ["l-", "nubar"], cuts, weighted=60000, seed=32)
+
+    def rapidity(table):
+        x1, x2 = table.column("x1").to_numpy(), table.column("x2").to_numpy()
+        return 0.5 * np.log(x1 / x2)
+
+    edges = np.linspace(-3.0, 3.0, 7)
+    s_plus, _ = np.histogram(rapidity(t_plus), edges, weights=w_plus)
+    s_minus, _ = np.histogram(rapidity(t_minus), edges, weights=w_minus)
+    e_plus = np.sqrt(np.histogram(rapidity(t_plus), edges, weights=w_plus**2)[0])
+    e_minus = np.sqrt(np.histogram(rapidity(t_minus), edges, weights=w_minus**2)[0])
+    ratio = s_plus / s_minus
+    err = ratio * np.hypot(e_plus / s_plus, e_minus / s_minus)
+    m_w, rs = 80.3692, SQRT_S  # PDG m_W (arXiv:2308.09417, as in test_widths)
+    dens = pdf.load()
+
+    def lum(y, pairs):
+        x1, x2 = m_w / rs * np.exp(y), m_w / rs * np.exp(-y)
+        return sum(dens.xfx(a, x1, m_w) * dens.xfx(b, x2, m_w) for a, b in pairs)
+
+    grid = np.linspace(-1, 1, 41)
+    expect = []
+    for lo, hi in zip(edges[:-1], edges[1:]):
+        y = lo + (hi - lo) * (grid + 1) / 2  # the bin average of each luminosity
+        plus = lum(y, [(2, -1), (-1, 2), (4, -3), (-3, 4)]).mean()
+        minus = lum(y, [(1, -2), (-2, 1), (3, -4), (-4, 3)]).mean()
+        expect.append(plus / minus)
+    expect = np.array(expect)
+    pulls = (ratio - expect) / np.hypot(err, 0.02 * expect)  # 2%: the luminosities taken at m_W only
+    assert np.all(np.abs(pulls) < 5), (ratio, expect, err)
+    # W+ outnumbers W- everywhere and more so forward: swapped charges would give 1/ratio < 1
+    assert np.all(expect > 1.05) and expect[0] > expect[2] + 0.2 and expect[-1] > expect[3] + 0.2
