@@ -224,3 +224,37 @@ def test_w_charge_asymmetry_in_rapidity_against_the_luminosity_ratio(tmp_path):
     assert np.all(np.abs(pulls) < 5), (ratio, expect, err)
     # W+ outnumbers W- everywhere and more so forward: swapped charges would give 1/ratio < 1
     assert np.all(expect > 1.05) and expect[0] > expect[2] + 0.2 and expect[-1] > expect[3] + 0.2
+
+
+def test_quark_gluon_scattering_sends_the_quark_where_its_matrix_element_says(tmp_path):
+    """In q g -> q g the two jets point at +-c in the parton frame; the outgoing quark is the one at
+    c (measured from the incoming quark) with probability M(c) / (M(c) + M(-c)),
+    M = -4/9 (s^2 + u^2)/(s u) + (s^2 + u^2)/t^2, t = -s (1 - c)/2, u = -s (1 + c)/2 (Ellis,
+    Stirling & Webber (1996) Table 7.1, t between the two quarks; the same table that
+    test_qcd.py takes from `equation-database`). With the orientation flipped (the quark sent the
+    gluon's way) the statistic below would sit at -sum w (2P - 1)^2."""
+    p, pdg, w, _ = _events(tmp_path, ["jet", "jet"], "[cuts]\npt_min = 200.0", weighted=60000, seed=14)
+    quark_in = (np.abs(pdg[:, :2]) <= 5) & (pdg[:, :2] != 0)
+    quark_out = (np.abs(pdg[:, 2:]) <= 5) & (pdg[:, 2:] != 0)
+    qg = (quark_in.sum(1) == 1) & (quark_out.sum(1) == 1) & np.any(pdg[:, :2] == 21, axis=1)
+    assert qg.sum() > 1000
+    p, pdg, quark_in, quark_out = p[qg], pdg[qg], quark_in[qg], quark_out[qg]
+    iq = np.argmax(quark_in, axis=1)
+    oq = 2 + np.argmax(quark_out, axis=1)
+    c2 = np.array([_cos_in_parton_frame(p[i:i + 1], 2, iq[i])[0] for i in range(len(iq))])
+    s = (p[:, 0, 0] + p[:, 1, 0]) ** 2 - (p[:, 0, 3] + p[:, 1, 3]) ** 2
+
+    def m2(c):
+        t, u = -s * (1 - c) / 2, -s * (1 + c) / 2
+        return -4 / 9 * (s * s + u * u) / (s * u) + (s * s + u * u) / (t * t)
+
+    prob = m2(c2) / (m2(c2) + m2(-c2))  # the quark is the jet in slot 2
+    observed = (oq == 2).astype(float)
+    # weighted events: E[w (observed - prob)] = 0 whatever probability the sampler gave each
+    # orientation, since the weight carries M of the orientation drawn
+    lever = 2 * prob - 1
+    ww = w[qg]
+    stat = np.sum(ww * (observed - prob) * lever)
+    sd = np.sqrt(np.sum((ww * (observed - prob) * lever) ** 2))
+    assert abs(stat) < 5 * sd, (stat, sd)
+    assert np.sum(ww * lever * lever) > 20 * sd
