@@ -58,7 +58,8 @@ def klein_nishina(k: float, r_e_fm: float = R_E_FM) -> float:
     """Total Compton cross-section (fm^2) on a free electron at rest, k = photon energy / m_e c^2.
 
     Klein & Nishina, Z. Phys. 52 (1929) 853; the integrated form as in Heitler, The Quantum Theory
-    of Radiation (1954), sec. 22 (from memory).
+    of Radiation (1954), sec. 22 (recalled; checked against a quadrature of the differential
+    Klein-Nishina form in test_cross_sections.py).
     """
     l = math.log(1.0 + 2.0 * k)
     return 2.0 * math.pi * r_e_fm**2 * ((1.0 + k) / k**2 * (2.0 * (1.0 + k) / (1.0 + 2.0 * k) - l / k)
@@ -68,7 +69,8 @@ def klein_nishina(k: float, r_e_fm: float = R_E_FM) -> float:
 def breit_wheeler(beta: float, r_e_fm: float = R_E_FM) -> float:
     """sigma(gamma gamma -> e+ e-) in fm^2, beta the electron speed in the CM frame.
 
-    Breit & Wheeler, Phys. Rev. 46 (1934) 1087 (formula from memory):
+    Breit & Wheeler, Phys. Rev. 46 (1934) 1087 (formula recalled; the library |M|^2 that the test
+    integrates against it is checked against Dirac traces in test_references.py):
     sigma = (pi r_e^2 / 2) (1 - beta^2) [(3 - beta^4) ln((1 + beta)/(1 - beta)) - 2 beta (2 - beta^2)].
     """
     return 0.5 * math.pi * r_e_fm**2 * (1.0 - beta**2) * (
@@ -78,7 +80,8 @@ def breit_wheeler(beta: float, r_e_fm: float = R_E_FM) -> float:
 def dirac_annihilation(gamma: float, r_e_fm: float = R_E_FM) -> float:
     """sigma(e+ e- -> gamma gamma) in fm^2 for a positron of Lorentz factor gamma on an electron at rest.
 
-    Dirac, Proc. Camb. Phil. Soc. 26 (1930) 361; as in Heitler (1954), sec. 29 (from memory):
+    Dirac, Proc. Camb. Phil. Soc. 26 (1930) 361; as in Heitler (1954), sec. 29 (recalled; the
+    library |M|^2 integrated against it is checked against Dirac traces in test_references.py):
     sigma = pi r_e^2 / (gamma + 1) [(gamma^2 + 4 gamma + 1)/(gamma^2 - 1) ln(gamma + sqrt(gamma^2 - 1))
     - (gamma + 3)/sqrt(gamma^2 - 1)].
     """
