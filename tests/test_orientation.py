@@ -54,6 +54,17 @@ def _cos_in_parton_frame(p, a: int, b: int) -> np.ndarray:
     return num / np.linalg.norm(va[:, 1:], axis=1) / np.linalg.norm(vb[:, 1:], axis=1)
 
 
+def _cos_per_event(p, slot_a, slot_b) -> np.ndarray:
+    """cos of the angle between particle slot_a[i] and incoming slot_b[i] of each event i."""
+    c = np.empty(len(p))
+    for b in (0, 1):
+        for a in range(2, p.shape[1]):
+            sel = (slot_b == b) & (slot_a == a)
+            if sel.any():
+                c[sel] = _cos_in_parton_frame(p[sel], a, b)
+    return c
+
+
 def _weighted_mean(x, w):
     mean = np.sum(w * x) / np.sum(w)
     err = np.sqrt(np.sum(w * w * (x - mean) ** 2)) / np.sum(w)
@@ -78,12 +89,7 @@ def test_w_decay_angle_against_v_minus_a(outgoing, lepton_pdg, sign, tmp_path):
     quark_slot = np.where(pdg[:, 0] > 0, 0, 1)  # the incoming quark (not the antiquark)
     lep = np.where(np.isin(pdg[:, 2], lepton_pdg), 2, 3)
     assert np.all(np.isin(pdg[np.arange(len(pdg)), lep], lepton_pdg))
-    c = np.empty(len(w))
-    for qs in (0, 1):
-        for ls in (2, 3):
-            sel = (quark_slot == qs) & (lep == ls)
-            if sel.any():
-                c[sel] = _cos_in_parton_frame(p[sel], ls, qs)
+    c = _cos_per_event(p, lep, quark_slot)
     mean, err = _weighted_mean(c, w)
     assert abs(mean - sign * 0.5) < 5 * err + 0.005, (mean, err)
 
@@ -93,7 +99,7 @@ def test_w_decay_angle_distribution_has_the_v_minus_a_shape(tmp_path):
     p, pdg, w, _ = _events(tmp_path, ["l+", "nu"], "[cuts]\nmass_min = 60.0\nmass_max = 100.0", seed=12)
     quark_slot = np.where(pdg[:, 0] > 0, 0, 1)
     lep = np.where(np.isin(pdg[:, 2], (-11, -13)), 2, 3)
-    c = np.array([_cos_in_parton_frame(p[i:i + 1], lep[i], quark_slot[i])[0] for i in range(len(w))])
+    c = _cos_per_event(p, lep, quark_slot)
     edges = np.linspace(-1, 1, 11)
     h, _ = np.histogram(c, edges, weights=w)
     h2, _ = np.histogram(c, edges, weights=w * w)
@@ -163,12 +169,7 @@ def test_drell_yan_forward_backward_asymmetry_against_the_gamma_z_formula(window
     par = read_run(tmp_path / "out" / "weighted.parquet")["parameters"]["model"]
     quark_slot = np.where(pdg[:, 0] > 0, 0, 1)
     lep = np.where(pdg[:, 2] == 11, 2, 3)
-    c = np.empty(len(w))
-    for qs in (0, 1):
-        for ls in (2, 3):
-            sel = (quark_slot == qs) & (lep == ls)
-            if sel.any():
-                c[sel] = _cos_in_parton_frame(p[sel], ls, qs)
+    c = _cos_per_event(p, lep, quark_slot)
     shat = (p[:, 0, 0] + p[:, 1, 0]) ** 2 - (p[:, 0, 3] + p[:, 1, 3]) ** 2
     flavour = np.abs(pdg[np.arange(len(w)), quark_slot])
     up = np.isin(flavour, (2, 4))
@@ -241,7 +242,7 @@ def test_quark_gluon_scattering_sends_the_quark_where_its_matrix_element_says(tm
     p, pdg, quark_in, quark_out = p[qg], pdg[qg], quark_in[qg], quark_out[qg]
     iq = np.argmax(quark_in, axis=1)
     oq = 2 + np.argmax(quark_out, axis=1)
-    c2 = np.array([_cos_in_parton_frame(p[i:i + 1], 2, iq[i])[0] for i in range(len(iq))])
+    c2 = _cos_per_event(p, np.full(len(iq), 2), iq)
     s = (p[:, 0, 0] + p[:, 1, 0]) ** 2 - (p[:, 0, 3] + p[:, 1, 3]) ** 2
 
     def m2(c):
