@@ -108,6 +108,12 @@ def _given_parameters(doc: dict):
             yield f"parameters.{k}", ("parameters", k)
 
 
+def _parent(doc: dict, path: tuple[str, ...]) -> dict:
+    for k in path[:-1]:
+        doc = doc[k]
+    return doc
+
+
 def _fingerprint(proc, x: np.ndarray) -> tuple:
     with np.errstate(all="ignore"):
         w = proc.weights(x)
@@ -134,17 +140,11 @@ def check_effects(proc, build) -> None:
     x = rng.random((EFFECT_POINTS, proc.ndim))
     reference = None
     for card_key, path in _given_parameters(doc):
-        node = doc
-        for k in path[:-1]:
-            node = node[k]
-        moved = _perturbed(node[path[-1]], params.get(path[-1]) if len(path) == 2 else None)
+        moved = _perturbed(_parent(doc, path)[path[-1]], params.get(path[-1]) if len(path) == 2 else None)
         if moved is None:
             continue
         variant = copy.deepcopy(doc)
-        target = variant
-        for k in path[:-1]:
-            target = target[k]
-        target[path[-1]] = moved
+        _parent(variant, path)[path[-1]] = moved
         try:
             other = build(parse_doc(variant, cfg.source, cfg.text))
             if other.ndim != proc.ndim:
