@@ -105,7 +105,8 @@ class Key:
         hi = "" if self.hi is None else _fmt(self.hi)
         if not lo and not hi:
             return ""
-        return lo if self.lo_open and not hi else f"{lo} .. {hi}"
+        text = lo if self.lo_open and not hi else f"{lo} .. {hi}"
+        return text + (", or inf" if self.allow_inf and hi else "")
 
     def default_text(self) -> str:
         if self.required:
