@@ -125,9 +125,22 @@ class HadronCollision(Process):
                 keys[key] = len(self.evaluations)
                 self.evaluations.append((sub.spec, sub.t_u_swapped, sub.out_perm))
             self.sub_evaluation[i] = keys[key]
-        # luminosity coefficients: evaluation k gets f1[a] f2[b] times the symmetry factor of each subprocess
-        self.lumi = np.zeros((len(self.evaluations), len(names), len(names)))
-        np.add.at(self.lumi, (self.sub_evaluation, self.sub_parton1, self.sub_parton2), self.sub_symmetry)
+        # the luminosity sum sum_k |M_k|^2 sum_(a,b) C_k,ab f1_a f2_b in the cheaper of two forms: over the
+        # parton pairs that occur (Drell-Yan: 10 pairs) or, when most pairs occur (dijets: 121), as one
+        # matrix product of the coefficient rows with f2 (measured in gen.benchmark --hadron)
+        n_names = len(names)
+        pairs = sorted(set(zip(self.sub_parton1.tolist(), self.sub_parton2.tolist())))
+        column = {pair: i for i, pair in enumerate(pairs)}
+        self.pair_a = np.array([a for a, _ in pairs], np.int64)
+        self.pair_b = np.array([b for _, b in pairs], np.int64)
+        self.pair_coeff = np.zeros((len(self.evaluations), len(pairs)))
+        np.add.at(self.pair_coeff, (self.sub_evaluation, [column[ab] for ab in zip(self.sub_parton1.tolist(),
+                                                                                  self.sub_parton2.tolist())]),
+                  self.sub_symmetry)
+        self.by_pairs = len(pairs) <= 2 * n_names
+        coeff = np.zeros((len(self.evaluations), n_names, n_names))
+        np.add.at(coeff, (self.sub_evaluation, self.sub_parton1, self.sub_parton2), self.sub_symmetry)
+        self.coeff_rows = coeff.reshape(-1, n_names)
         n = 2 + self.n_out
         self.sub_pdg = np.array([[species(p).pdg for p in sub.partons + sub.outgoing] for sub in subs], np.int32)
         self.strong = max(sub.spec.strong_order for sub in subs) > 0
@@ -264,13 +277,26 @@ class HadronCollision(Process):
         return self.cuts.mask(self._outgoing(d.shat, d.c, np.zeros_like(d.shat), d.x1, d.x2))
 
     # --- integrand and events ------------------------------------------------------------------
+    def _subprocess_terms(self, d) -> np.ndarray:
+        """(subprocesses, points): |M|^2 x f1 x f2 x symmetry factor of each subprocess, from which
+        an event's subprocess is drawn."""
+        return d.me[self.sub_evaluation] * d.f1[self.sub_parton1] * d.f2[self.sub_parton2] * self.sub_symmetry[:, None]
+
+    def _luminosity_sum(self, d) -> np.ndarray:
+        """sum over subprocesses of |M|^2 f1 f2 x symmetry factor, per point."""
+        if self.by_pairs:
+            lum = self.pair_coeff @ (d.f1[self.pair_a] * d.f2[self.pair_b])
+        else:
+            k, n = len(self.evaluations), d.f1.shape[0]
+            lum = np.einsum("an,kan->kn", d.f1, (self.coeff_rows @ d.f2).reshape(k, n, -1))
+        return np.einsum("kn,kn->n", d.me, lum)
+
     def weights(self, x):
         """Weights (pb) of points x (N, ndim): the sum over subprocesses."""
         out = np.empty(x.shape[0])
         for start in range(0, x.shape[0], _STEP):
             d = self._point_terms(x[start:start + _STEP])
-            lum = np.einsum("an,kab,bn->kn", d.f1, self.lumi, d.f2)
-            w = d.norm * np.einsum("kn,kn->n", d.me, lum)
+            w = d.norm * self._luminosity_sum(d)
             out[start:start + _STEP] = np.where(self._pass_cuts(d), w, 0.0)
         return out
 
@@ -282,9 +308,7 @@ class HadronCollision(Process):
     def _events(self, x, rng) -> EventData:
         n = x.shape[0]
         d = self._point_terms(x)
-        # share of each subprocess at each point
-        w_sub = d.me[self.sub_evaluation] * d.f1[self.sub_parton1] * d.f2[self.sub_parton2] * self.sub_symmetry[:, None]
-        sub = draw_index(w_sub, rng.random(n))
+        sub = draw_index(self._subprocess_terms(d), rng.random(n))  # in proportion to its share of the weight
         phi = rng.random(n) * (2.0 * math.pi)
         npart = 2 + self.n_out
         p = np.empty((n, npart, 4))
