@@ -108,18 +108,39 @@ class Block:
 
 def _lagrange4(nodes: np.ndarray, t: np.ndarray):
     """Indices (N, 4) of a four-node stencil around t and its Lagrange weights (N, 4); fewer nodes
-    than four fall back to lower order."""
+    than four fall back to lower order. w_a = prod_(b != a) (t - x_b) / (x_a - x_b), with the
+    denominators of every stencil position computed once per node array."""
     n = nodes.size
     k = min(4, n)
     i = np.clip(np.searchsorted(nodes, t, side="right") - 2, 0, n - k)
     idx = i[:, None] + np.arange(k)[None, :]
-    xs = nodes[idx]
-    w = np.ones((t.size, k))
+    d = [t - nodes[i + b] for b in range(k)]  # t - x_b
+    # the product of all d but d_a (no division by d, which may vanish on a node)
+    num = np.ones((t.size, k))
     for a in range(k):
         for b in range(k):
-            if a != b:
-                w[:, a] *= (t - xs[:, b]) / (xs[:, a] - xs[:, b])
-    return idx, w
+            if b != a:
+                num[:, a] *= d[b]
+    return idx, num * _inverse_denominators(nodes, k)[i]
+
+
+#: per node array (by content) and stencil size
+_DENOMINATORS: dict[tuple[int, int, int], np.ndarray] = {}
+
+
+def _inverse_denominators(nodes: np.ndarray, k: int) -> np.ndarray:
+    """1 / prod_(b != a) (x_a - x_b) for the stencil starting at each node, shape (n - k + 1, k)."""
+    key = (hash(nodes.tobytes()), nodes.size, k)
+    if key not in _DENOMINATORS:
+        starts = np.arange(nodes.size - k + 1)
+        xs = nodes[starts[:, None] + np.arange(k)[None, :]]
+        den = np.ones_like(xs)
+        for a in range(k):
+            for b in range(k):
+                if a != b:
+                    den[:, a] *= xs[:, a] - xs[:, b]
+        _DENOMINATORS[key] = 1.0 / den
+    return _DENOMINATORS[key]
 
 
 def _parse_member(text: str, source: str) -> list[Block]:
@@ -289,7 +310,7 @@ class PdfSet:
             m = sel.size
             idx = (ix[:, :, None] * b.q.size + iq[:, None, :]).reshape(m, -1)
             w = (wx[:, :, None] * wq[:, None, :]).reshape(m, -1)
-            vals = np.einsum("nk,nkf->fn", w, flat[k][idx])
+            vals = np.einsum("nk,nkf->fn", w, flat[k][idx], optimize=True)
             if len(rows) == len(pids):
                 out[:, sel] = vals
             else:
@@ -299,26 +320,7 @@ class PdfSet:
 
     def xfx(self, pid: int, x, q) -> np.ndarray:
         """x f(x, Q) for PDG id `pid` at arrays x and Q (GeV); 0 for flavours the set does not hold."""
-        x = np.atleast_1d(np.asarray(x, float))
-        q = np.broadcast_to(np.asarray(q, float), x.shape)
-        pid = 21 if pid == 0 else pid
-        if pid not in self.pids:
-            return np.zeros(x.shape)
-        j = self.pids.index(pid)
-        out = np.zeros(x.shape)
-        which = np.clip(np.searchsorted(self._qmax, q, side="left"), 0, len(self.blocks) - 1)
-        for k, b in enumerate(self.blocks):
-            sel = which == k
-            if not sel.any():
-                continue
-            lx = np.log(np.clip(x[sel], b.x[0], b.x[-1]))
-            lq = np.log(np.clip(q[sel], b.q[0], b.q[-1]) ** 2)
-            ix, wx = _lagrange4(b.logx, lx)
-            iq, wq = _lagrange4(b.logq2, lq)
-            vals = b.values[ix[:, :, None], iq[:, None, :], j]
-            out[sel] = np.einsum("na,nb,nab->n", wx, wq, vals)
-        out[x >= 1.0] = 0.0
-        return out
+        return self.xfx_many((pid,), x, q)[0]
 
 
 def find_set(name_or_path: str | Path, search: list[str | Path] | None = None) -> Path:
