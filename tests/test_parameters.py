@@ -144,3 +144,14 @@ def test_a_transverse_momentum_cut_equals_the_polar_angle_cut_it_describes():
     a = _sigma(f"pt_min = {pt_min}")
     b = _sigma(f"theta_min_deg = {theta}\ntheta_max_deg = {180 - theta}")
     assert abs(a.value - b.value) < 5 * math.hypot(a.error, b.error)
+
+
+@pytest.mark.parametrize("value, codata", [("ALPHA_0", "fine-structure constant"),
+                                           ("G_FERMI", "Fermi coupling constant"),
+                                           ("HBAR_EV_S", "reduced Planck constant in eV s")])
+def test_the_written_codata_values_against_scipy_constants(value, codata):
+    """gen writes its CODATA values out (scipy.constants costs start-up); they must be the ones
+    scipy.constants holds, within the CODATA 2018 -> 2022 change of alpha (7e-10)."""
+    from gen.physics import constants
+
+    assert getattr(constants, value) == pytest.approx(sc.physical_constants[codata][0], rel=1e-9, abs=0)
