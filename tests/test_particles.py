@@ -46,3 +46,14 @@ def test_masses_against_codata(name, codata):
     mev = value / sc.e / 1e6 if unit == "J" else value
     rel = 1e-4 if name == "tau-" else 1e-6
     assert species(name).mass * 1e3 == pytest.approx(mev, rel=rel)
+
+
+def test_the_written_pdg_values_are_the_particle_packages():
+    """gen/physics/pdg_values.py against the installed `particle` package (the PDG data), exactly:
+    regenerate it with `python -m gen.physics.pdg_values` when this fails after an update."""
+    from gen.physics import pdg_values
+
+    for pdg, (mass, width) in pdg_values.MASS_WIDTH.items():
+        ref = particle.Particle.from_pdgid(pdg)
+        assert (mass, width) == ((ref.mass or 0.0) * 1e-3, (ref.width or 0.0) * 1e-3), pdg
+    assert pdg_values.table_text() == open(pdg_values.__file__, encoding="utf-8").read()
