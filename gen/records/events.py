@@ -19,6 +19,21 @@ __all__ = ["RecordBuilder", "JOB_STRIDE"]
 JOB_STRIDE = 1 << 40
 
 
+def _numeric(values: np.ndarray, dtype=None) -> pa.Array:
+    """An Arrow array over a numpy array's memory. (pa.array would do, but its first call imports
+    pandas where it is installed, 0.3 s of every run's start.)"""
+    a = np.ascontiguousarray(values if dtype is None else np.asarray(values, dtype))
+    return pa.Array.from_buffers(pa.from_numpy_dtype(a.dtype), a.size, [None, pa.py_buffer(a)])
+
+
+def _strings(items) -> pa.Array:
+    """An Arrow string array of Python strings, built from its offsets and bytes."""
+    data = [str(x).encode() for x in items]
+    offsets = np.zeros(len(data) + 1, np.int32)
+    np.cumsum([len(d) for d in data], out=offsets[1:])
+    return pa.Array.from_buffers(pa.string(), len(data), [None, pa.py_buffer(offsets), pa.py_buffer(b"".join(data))])
+
+
 class RecordBuilder:
     """Record batches of one run: its particle layout, and the unit of its weights."""
 
@@ -27,9 +42,9 @@ class RecordBuilder:
         self.schema = arrow_schema(weight_unit)
         self._particle_type = self.schema.field("particles").type.value_type
         roles = schema_doc()["roles"]
-        self._role_dict = pa.array(roles, pa.string())
+        self._role_dict = _strings(roles)
         self._role_codes = np.array([roles.index(r) for r in layout.roles], np.int32)
-        self._sub = pa.array(list(layout.subprocesses), pa.string())
+        self._sub = _strings(layout.subprocesses)
 
     def batch(self, first_id: int, weights: np.ndarray, data: EventData) -> pa.RecordBatch:
         """Events with ids first_id, first_id + 1, ... and the given weights; `data` holds the
@@ -41,29 +56,29 @@ class RecordBuilder:
         comp = np.ascontiguousarray(data.momenta.reshape(m, 4).T)  # (4, m): each component contiguous
 
         def per_particle(values, fixed):
-            return pa.array(np.tile(fixed, n_ev) if values is None else values.reshape(m))
+            return _numeric(np.tile(fixed, n_ev) if values is None else values.reshape(m))
 
         def per_event(values, fixed):
             if values is not None:
-                return pa.array(values, pa.float64())
-            return pa.nulls(n_ev, pa.float64()) if fixed is None else pa.array(np.full(n_ev, fixed))
+                return _numeric(values, np.float64)
+            return pa.nulls(n_ev, pa.float64()) if fixed is None else _numeric(np.full(n_ev, fixed, np.float64))
 
         fields = [
             per_particle(data.pdg, lay.pdg),
-            pa.DictionaryArray.from_arrays(pa.array(np.tile(self._role_codes, n_ev)), self._role_dict),
+            pa.DictionaryArray.from_arrays(_numeric(np.tile(self._role_codes, n_ev)), self._role_dict),
             per_particle(None, lay.parent_first), per_particle(None, lay.parent_last),
             per_particle(data.colour, lay.colour), per_particle(data.anticolour, lay.anticolour),
-            pa.array(comp[0]), pa.array(comp[1]), pa.array(comp[2]), pa.array(comp[3]),
+            _numeric(comp[0]), _numeric(comp[1]), _numeric(comp[2]), _numeric(comp[3]),
             per_particle(data.mass, lay.mass), pa.nulls(m, pa.float32()),
         ]
         particles = pa.StructArray.from_arrays(fields, fields=list(self._particle_type))
-        offsets = pa.array(np.arange(0, m + 1, n, dtype=np.int32))
+        offsets = _numeric(np.arange(0, m + 1, n, dtype=np.int32))
         plist = pa.ListArray.from_arrays(offsets, particles, type=self.schema.field("particles").type)
         codes = np.zeros(n_ev, np.int32) if data.subprocess is None else data.subprocess.astype(np.int32)
         cols = [
-            pa.array(np.arange(first_id, first_id + n_ev, dtype=np.int64)),
-            pa.array(weights, pa.float64()),
-            pa.DictionaryArray.from_arrays(pa.array(codes), self._sub),
+            _numeric(np.arange(first_id, first_id + n_ev, dtype=np.int64)),
+            _numeric(weights, np.float64),
+            pa.DictionaryArray.from_arrays(_numeric(codes), self._sub),
             per_event(data.scale, lay.scale),
             per_event(data.factorization_scale, None),
             per_event(None, lay.alpha_em),

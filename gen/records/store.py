@@ -66,7 +66,8 @@ class EventWriter:
     def write(self, batch: pa.RecordBatch) -> None:
         if batch.num_rows == 0:
             return
-        w = batch.column(1).to_numpy()
+        col = batch.column(1)  # the weights, read from the buffer (to_numpy's first call imports pandas)
+        w = np.frombuffer(col.buffers()[1], np.float64, count=len(col), offset=8 * col.offset)
         self.sum_w += float(w.sum())
         self.max_w = max(self.max_w, float(w.max()))
         self._pending.append(batch)
