@@ -21,11 +21,30 @@ __all__ = ["CrossSection", "adapt", "MapSampler", "UnweightingStats", "chi2_surv
 
 
 def chi2_survival(chi2: float, dof: int) -> float:
-    """P(X >= chi2) for a chi-square distribution with dof degrees of freedom (the regularized
-    upper incomplete gamma function of scipy.special, imported on first use)."""
-    from scipy.special import gammaincc
-
-    return float(gammaincc(0.5 * dof, 0.5 * chi2)) if dof > 0 else 1.0
+    """P(X >= chi2) for a chi-square distribution with an integer number dof of degrees of
+    freedom, in closed form (y = chi2/2): e^-y sum_(i<k) y^i/i! for dof = 2k, and
+    erfc(sqrt y) + e^-y sum_(i=1..k) y^(i-1/2)/Gamma(i+1/2) for dof = 2k+1 (the regularized upper
+    incomplete gamma function at integer and half-integer order; Abramowitz & Stegun 26.4.4-5).
+    Written here because importing scipy.special for it cost every run 0.3 s; the tests compare
+    it with scipy.special.gammaincc."""
+    if dof <= 0:
+        return 1.0
+    y = 0.5 * max(chi2, 0.0)
+    if dof % 2 == 0:
+        term, total = 1.0, 1.0
+        for i in range(1, dof // 2):
+            term *= y / i
+            total += term
+        return min(1.0, math.exp(-y) * total)
+    total = math.erfc(math.sqrt(y))
+    if dof > 1:
+        term = math.sqrt(y) / math.gamma(1.5)  # y^(1/2) / Gamma(3/2)
+        acc = term
+        for i in range(2, dof // 2 + 1):
+            term *= y / (i - 0.5)
+            acc += term
+        total += math.exp(-y) * acc
+    return min(1.0, total)
 
 
 @dataclass(frozen=True)
