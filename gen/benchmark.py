@@ -239,6 +239,32 @@ STARTUP_COMMANDS = {
 }
 
 
+PARTS_CARD = CARD.format(n=20000).replace("weighted_events = 0", "weighted_events = 4000")
+
+
+def _parts_against_one_run(parts: int = 20) -> None:
+    """Wall time of `parts` batch parts as separate `gen run --grid --job` processes against one
+    such process making the same events (the fixed cost of a part is start-up and set-up)."""
+    with tempfile.TemporaryDirectory() as tmp:
+        card = Path(tmp) / "parts.toml"
+        card.write_text(PARTS_CARD)
+        grid = Path(tmp) / "grid.json"
+        gen = [sys.executable, "-m", "gen.cli"]
+        subprocess.run([*gen, "adapt", str(card), "-o", str(grid), "--quiet"], check=True)
+
+        def timed(jobs, folder):
+            t0 = time.perf_counter()
+            for j in range(jobs):
+                subprocess.run([*gen, "run", str(card), "--grid", str(grid), "--job", str(j), "--jobs", str(jobs),
+                                "-o", str(Path(tmp) / folder), "--quiet"], check=True)
+            return time.perf_counter() - t0
+
+        one = statistics.median(timed(1, f"one{r}") for r in range(3))
+        many = timed(parts, "parts")
+        print(f"{parts} parts as separate processes: {many:.2f} s; one process with the same 24,000 events: "
+              f"{one:.2f} s (median of 3); ratio {many / one:.1f}; {many / parts:.3f} s per part")
+
+
 def _startup(repeat: int) -> None:
     """Median wall and CPU seconds of each command over `repeat` fresh processes, and the modules
     whose import costs most in `gen processes` (cumulative microseconds from -X importtime)."""
@@ -260,6 +286,7 @@ def _startup(repeat: int) -> None:
             after = resource.getrusage(resource.RUSAGE_CHILDREN)
             cpus.append(after.ru_utime + after.ru_stime - before.ru_utime - before.ru_stime)
         print(f"{label:<46} {statistics.median(walls):>12.3f} s {statistics.median(cpus):>11.3f} s")
+    _parts_against_one_run()
     r = subprocess.run([sys.executable, "-X", "importtime", "-m", "gen.cli", "processes"], capture_output=True,
                        text=True, check=True)
     rows = []
