@@ -226,3 +226,19 @@ def test_an_unwritable_output_folder_is_reported_clearly(tmp_path):
         gen.run(parse_card(CASES["scalar"], "s.toml"), folder=blocker / "run")
     with pytest.raises(gen.OutputError, match="exists and is not a folder"):
         gen.run(parse_card(CASES["scalar"], "s.toml"), folder=blocker)
+
+
+def test_read_momenta_across_row_groups_equals_the_table(tmp_path):
+    """The column-wise reader against the momenta taken from the whole table with pyarrow, on a
+    file of several row groups, with and without a role (common practice, no source)."""
+    from gen.records.store import read_momenta
+
+    text = card("qed", ("e-", "e+"), ("mu-", "mu+"), "sqrt_s = 10.0", "[output]\nrow_group_events = 1000",
+                "events = 3500\nweighted_events = 0\nseed = 2\nchunk = 1000")
+    res = gen.run(parse_card(text, "c.toml"), folder=tmp_path / "out")
+    path = res.files[0]
+    assert pq.ParquetFile(path).num_row_groups >= 2
+    flat = pq.read_table(path).column("particles").combine_chunks().flatten()
+    expect = np.stack([flat.field(c).to_numpy() for c in ("e", "px", "py", "pz")], -1).reshape(3500, 4, 4)
+    np.testing.assert_array_equal(read_momenta(path), expect)
+    np.testing.assert_array_equal(read_momenta(path, role="outgoing"), expect[:, 2:])

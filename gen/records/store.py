@@ -312,22 +312,45 @@ def read_momenta(path: str | Path, role: str | None = None) -> np.ndarray:
     """Four-momenta as a float64 array of shape (N, n, 4), (E, px, py, pz) in GeV.
 
     All events of a file have the same particle content; `role` ('incoming', 'outgoing', ...)
-    keeps only the particles of that role.
+    keeps only the particles of that role. Only the four momentum columns are read, row group by
+    row group into one preallocated array (no whole table held, no pandas imported).
     """
-    table = read_table(path, columns=["particles"])
-    parts = table.column("particles").combine_chunks()
-    n_events = len(parts)
-    flat = parts.flatten()
-    offsets = parts.offsets.to_numpy()
-    if n_events == 0:
+    read_run(path)
+    names = ("e", "px", "py", "pz")
+    try:
+        pf = pq.ParquetFile(path)
+        n_events = pf.metadata.num_rows
+        out: np.ndarray | None = None
+        row = 0
+        for rg in range(pf.num_row_groups):
+            lists = pf.read_row_group(rg, columns=[f"particles.list.element.{c}" for c in names]).column("particles")
+            for chunk in lists.chunks:
+                k = len(chunk)
+                if k == 0:
+                    continue
+                counts = np.diff(_buffer_values(chunk.offsets, np.int32))
+                if out is None:
+                    out = np.empty((n_events, int(counts[0]), 4))
+                if np.any(counts != out.shape[1]):
+                    raise OutputError(f"{path}: events have different numbers of particles; read the table instead")
+                flat = chunk.flatten()
+                for j, c in enumerate(names):
+                    out[row:row + k, :, j] = _buffer_values(flat.field(c), np.float64).reshape(k, -1)
+                row += k
+        roles = None
+        if role is not None and out is not None:
+            first = pf.read_row_group(0, columns=["particles.list.element.role"]).column("particles").chunk(0)
+            roles = first.flatten().field("role").dictionary_decode().slice(0, out.shape[1]).to_pylist()
+    except (OSError, pa.ArrowException) as exc:
+        raise OutputError(f"{path}: cannot read the events ({exc})") from None
+    if out is None:
         return np.empty((0, 0, 4))
-    n = int(offsets[1] - offsets[0])
-    if not np.all(np.diff(offsets) == n):
-        raise OutputError(f"{path}: events have different numbers of particles; read the table instead")
-    cols = [flat.field(k).to_numpy(zero_copy_only=False) for k in ("e", "px", "py", "pz")]
-    mom = np.stack(cols, axis=-1).reshape(n_events, n, 4)
-    if role is not None:
-        roles = flat.field("role").slice(0, n).to_pylist()
-        keep = [i for i, r in enumerate(roles) if r == role]
-        mom = mom[:, keep, :]
-    return mom
+    if roles is not None:
+        out = out[:, [i for i, r in enumerate(roles) if r == role], :]
+    return out
+
+
+def _buffer_values(arr: pa.Array, dtype) -> np.ndarray:
+    """The values of a primitive Arrow array without nulls, as a numpy view of its buffer."""
+    size = np.dtype(dtype).itemsize
+    return np.frombuffer(arr.buffers()[1], dtype, count=len(arr), offset=size * arr.offset)
