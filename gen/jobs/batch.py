@@ -30,7 +30,7 @@ from ..errors import OutputError, UserError
 from ..files import stale_temporaries
 from ..progress import Progress
 from ..records.schema import arrow_schema
-from ..records.store import EventWriter, event_files, read_run
+from ..records.store import EventWriter, compression_of, event_files, read_run
 from .run import by_subprocess, claim_folder, clear_earlier_run, lifetime_s, refuse_occupied, write_summary
 
 __all__ = ["MergeError", "collect_parts", "check_parts", "combine", "merge"]
@@ -175,7 +175,8 @@ def _merge(parts: dict[str, list[PartFile]], out: Path, progress: Progress, row_
         for kind, files in sorted(parts.items()):
             total = sum(pf.record["events"]["count"] for pf in files)
             unit = files[0].record["measure"]["unit"]
-            wr = stack.enter_context(EventWriter(out / f"{kind}.parquet", row_group_events, arrow_schema(unit)))
+            wr = stack.enter_context(EventWriter(out / f"{kind}.parquet", row_group_events, arrow_schema(unit),
+                                                 compression_of(files[0].path)))  # as the parts were written
             progress.stage(f"merge {kind[:2]}", total)
             if kind == "unweighted":
                 w_event = combined["value"] / total

@@ -353,7 +353,8 @@ def _sample(cfg, proc, grid, out, job, jobs, progress, t_start, t_adapted) -> Ru
             stats = UnweightingStats(max_weight=grid.max_weight)
             weight = xs.value / samp["events"]
             progress.stage("unweight", n_unw)
-            wr = stack.enter_context(EventWriter(out / names["unweighted"], rg, builder.schema))
+            wr = stack.enter_context(EventWriter(out / names["unweighted"], rg, builder.schema,
+                                                       cfg.output["compression"]))
             chunks = ((x, np.full(x.shape[0], weight)) for x in sampler.unweighted(rng_unw, n_unw, stats))
             counts, sums = _stream(wr, builder, proc, rng_unw, chunks, index * JOB_STRIDE,
                                    lambda n: progress.update(stats.accepted, f"efficiency {stats.efficiency:.1%}"))
@@ -373,7 +374,8 @@ def _sample(cfg, proc, grid, out, job, jobs, progress, t_start, t_adapted) -> Ru
         if n_w > 0:
             t0 = time.monotonic()
             progress.stage("weighted", n_w)
-            wr = stack.enter_context(EventWriter(out / names["weighted"], rg, builder.schema))
+            wr = stack.enter_context(EventWriter(out / names["weighted"], rg, builder.schema,
+                                                       cfg.output["compression"]))
             drawn = [0]
 
             def step(n):

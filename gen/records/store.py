@@ -41,7 +41,8 @@ class EventWriter:
     together (see `gen.jobs.run`); `abort` removes an unpublished file.
     """
 
-    def __init__(self, path: str | Path, row_group_events: int, schema: pa.Schema | None = None):
+    def __init__(self, path: str | Path, row_group_events: int, schema: pa.Schema | None = None,
+                 compression: str = "snappy"):
         self.path = Path(path)
         self.schema = schema or arrow_schema()
         self.row_group = row_group_events
@@ -57,7 +58,7 @@ class EventWriter:
         try:
             fd, self.tmp = temporary_beside(self.path)
             self._sink = os.fdopen(fd, "wb", buffering=1 << 20)
-            self._writer = pq.ParquetWriter(self._sink, self.schema, compression="snappy",
+            self._writer = pq.ParquetWriter(self._sink, self.schema, compression=compression,
                                             use_dictionary=DICTIONARY_COLUMNS, write_statistics=["event_id", "weight"])
         except OSError as exc:
             self.abort()
@@ -348,6 +349,15 @@ def read_momenta(path: str | Path, role: str | None = None) -> np.ndarray:
     if roles is not None:
         out = out[:, [i for i, r in enumerate(roles) if r == role], :]
     return out
+
+
+def compression_of(path: str | Path) -> str:
+    """The compression of an event file's first column chunk, as the card names it (snappy, zstd, none)."""
+    md = pq.ParquetFile(path).metadata
+    if md.num_row_groups == 0:
+        return "snappy"
+    codec = md.row_group(0).column(0).compression.lower()
+    return "none" if codec == "uncompressed" else codec
 
 
 def _buffer_values(arr: pa.Array, dtype) -> np.ndarray:
