@@ -64,3 +64,14 @@ def test_every_block_runs_as_written(scratch):
         assert r.returncode == 0, f"README {lang} block failed:\n{body}\n--- stdout\n{r.stdout}\n--- stderr\n{r.stderr}"
     assert (scratch / "gen-runs" / "z-pole-muons" / "summary.txt").exists()
     assert (scratch / "runs" / "zpole" / "unweighted.parquet").exists()
+
+
+def test_every_link_inside_the_readme_points_at_a_heading():
+    """[text](#anchor) links against the headings' anchors as GitHub makes them (lower case,
+    punctuation dropped, spaces to hyphens; common practice, no source)."""
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    fenced = re.sub(r"```.*?```", "", text, flags=re.S)
+    anchors = {re.sub(r"[^\w\- ]", "", m.group(1).strip().lower()).replace(" ", "-")
+               for m in re.finditer(r"^#+\s+(.*)$", fenced, flags=re.M)}
+    links = set(re.findall(r"\]\(#([^)]+)\)", fenced))
+    assert links and links <= anchors, links - anchors
