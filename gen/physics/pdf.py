@@ -124,16 +124,15 @@ def _lagrange4(nodes: np.ndarray, t: np.ndarray):
     return idx, num * _inverse_denominators(nodes, k)[i]
 
 
-#: per node array (by content) and stencil size
-_DENOMINATORS: dict[tuple[int, int, int], np.ndarray] = {}
+#: 1 / prod_(b != a) (x_a - x_b) per node array (keyed by its bytes) and stencil size
+_DENOMINATORS: dict[tuple[bytes, int], np.ndarray] = {}
 
 
 def _inverse_denominators(nodes: np.ndarray, k: int) -> np.ndarray:
     """1 / prod_(b != a) (x_a - x_b) for the stencil starting at each node, shape (n - k + 1, k)."""
-    key = (hash(nodes.tobytes()), nodes.size, k)
+    key = (nodes.tobytes(), k)
     if key not in _DENOMINATORS:
-        starts = np.arange(nodes.size - k + 1)
-        xs = nodes[starts[:, None] + np.arange(k)[None, :]]
+        xs = nodes[np.arange(nodes.size - k + 1)[:, None] + np.arange(k)[None, :]]
         den = np.ones_like(xs)
         for a in range(k):
             for b in range(k):

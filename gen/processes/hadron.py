@@ -129,18 +129,14 @@ class HadronCollision(Process):
         # parton pairs that occur (Drell-Yan: 10 pairs) or, when most pairs occur (dijets: 121), as one
         # matrix product of the coefficient rows with f2 (measured in gen.benchmark --hadron)
         n_names = len(names)
-        pairs = sorted(set(zip(self.sub_parton1.tolist(), self.sub_parton2.tolist())))
-        column = {pair: i for i, pair in enumerate(pairs)}
-        self.pair_a = np.array([a for a, _ in pairs], np.int64)
-        self.pair_b = np.array([b for _, b in pairs], np.int64)
-        self.pair_coeff = np.zeros((len(self.evaluations), len(pairs)))
-        np.add.at(self.pair_coeff, (self.sub_evaluation, [column[ab] for ab in zip(self.sub_parton1.tolist(),
-                                                                                  self.sub_parton2.tolist())]),
-                  self.sub_symmetry)
-        self.by_pairs = len(pairs) <= 2 * n_names
         coeff = np.zeros((len(self.evaluations), n_names, n_names))
         np.add.at(coeff, (self.sub_evaluation, self.sub_parton1, self.sub_parton2), self.sub_symmetry)
         self.coeff_rows = coeff.reshape(-1, n_names)
+        pairs = sorted(set(zip(self.sub_parton1.tolist(), self.sub_parton2.tolist())))
+        self.pair_a = np.array([a for a, _ in pairs], np.int64)
+        self.pair_b = np.array([b for _, b in pairs], np.int64)
+        self.pair_coeff = coeff[:, self.pair_a, self.pair_b]  # (evaluations, pairs that occur)
+        self.by_pairs = len(pairs) <= 2 * n_names
         n = 2 + self.n_out
         self.sub_pdg = np.array([[species(p).pdg for p in sub.partons + sub.outgoing] for sub in subs], np.int32)
         self.strong = max(sub.spec.strong_order for sub in subs) > 0
