@@ -29,7 +29,7 @@ from .keys import NUMBER, Key, type_name
 from .physics import pdf as _pdf
 from .physics import widths as _widths
 from .physics.kinematics import two_body_momentum
-from .physics.matrix import MODELS, Ordering, Subprocess, find_process, find_subprocesses
+from .physics.matrix import MODELS, Ordering, ProcessSpec, Subprocess, find_process, find_subprocesses
 from .physics.particles import HADRON_PARTONS, Species, lookup, species
 
 __all__ = ["RunConfig", "Resolved", "DecayStep", "load_card", "parse_card", "parse_doc", "SPEC", "RULES", "reference_markdown",
@@ -49,8 +49,13 @@ SPEC: dict[str, dict[str, Key]] = {
         "model": Key(str, required=True, choices=tuple(MODELS), doc="model of the process library"),
         "incoming": Key(list, required=True, doc="two incoming particles (names or PDG ids), or two hadrons (p, pbar); the "
                         "first moves along +z; or one particle, which decays at rest (no [collider]; the integral is its partial width)"),
-        "outgoing": Key(list, required=True, doc="two or three outgoing particles (names or PDG ids); with hadron "
-                        "beams one or two, and group names (jet, quark, antiquark, l-, l+, nu, nubar) stand for any of their members"),
+        "outgoing": Key(list, required=True, doc="two or three outgoing particles (names or PDG ids), two to six with "
+                        "a model of automatic amplitudes (standard, qed-tree, scalar-tree); with hadron beams one or two, "
+                        "and group names (jet, quark, antiquark, l-, l+, nu, nubar) stand for any of their members"),
+        "helicities": Key(str, "sum", doc="automatic amplitudes: sum over helicities at every point, or sample one "
+                          "helicity configuration per point (cheaper per point, larger variance)", choices=("sum", "sample")),
+        "colours": Key(str, "auto", doc="automatic amplitudes: exact colour sum, one sampled colour assignment per point, "
+                       "or auto (the sum for few coloured particles, sampling for many)", choices=("auto", "sum", "sample")),
     },
     "collider": {
         "sqrt_s": Key(NUMBER, lo=0.0, hi=1e9, lo_open=True, unit="GeV", doc="head-on beams of equal energy sqrt_s/2 (laboratory = centre-of-mass frame)"),
@@ -200,6 +205,8 @@ class RunConfig:
     sampling: dict[str, Any]
     output: dict[str, Any]
     resolved: Resolved = field(repr=False, compare=False, default=None)
+    #: [process] options of the automatic amplitudes: helicities, colours
+    process_options: dict[str, Any] = field(default_factory=dict)
 
     @property
     def at_rest(self) -> bool:
@@ -306,6 +313,15 @@ def _particles(d: _Draft) -> None:
     if any(hadrons) and not all(hadrons):
         raise d.error("process.incoming", "give two hadrons (p, pbar) or two particles; lepton-hadron collisions are "
                       "not supported")
+    automatic = d.model.automatic is not None
+    for k in ("helicities", "colours"):
+        if k in proc and k in d.doc.get("process", {}) and not automatic:
+            raise d.error(f"process.{k}", f"applies to models of automatic amplitudes only (standard, qed-tree, "
+                          f"scalar-tree); the {d.model.name} model's processes are hand-coded and summed exactly")
+    if automatic and (d.hadrons or d.at_rest):
+        raise d.error("process.incoming", f"the automatic amplitudes of the {d.model.name} model run at fixed beam "
+                      "energies for now; for hadron beams or decays at rest use the hand-coded models (qcd, "
+                      "electroweak)")
     if d.hadrons:
         if not 1 <= len(d.outgoing) <= 2:
             raise d.error("process.outgoing", f"with hadron beams expected 1 or 2 particles, found {len(d.outgoing)}")
@@ -314,8 +330,13 @@ def _particles(d: _Draft) -> None:
         if p.is_group:
             where = f"process.incoming[{i}]" if i < len(d.incoming) else f"process.outgoing[{i - len(d.incoming)}]"
             raise d.error(where, f"the group {p.name!r} needs hadron beams (p, pbar); name the particles")
+    if automatic:
+        if not 2 <= len(d.outgoing) <= 6:
+            raise d.error("process.outgoing", f"expected 2 to 6 particles, found {len(d.outgoing)}")
+        return
     if len(d.outgoing) not in (2, 3):
-        raise d.error("process.outgoing", f"expected 2 or 3 particles, found {len(d.outgoing)}")
+        raise d.error("process.outgoing", f"expected 2 or 3 particles, found {len(d.outgoing)} (the automatic "
+                      "amplitudes of process.model = \"standard\" take up to six)")
 
 
 @_rule("[collider] gives exactly one of sqrt_s, beam_energies (two positive energies) and beam_energy (fixed "
@@ -363,6 +384,13 @@ def _other_models(d: _Draft, has) -> str:
 def _process_in_model(d: _Draft) -> None:
     names_in = tuple(p.name for p in d.incoming)
     names_out = tuple(p.name for p in d.outgoing)
+    if d.model.automatic:
+        # checked against the model's vertices once the parameters are known (the rule after [parameters])
+        spec = ProcessSpec(d.model.name, names_in, names_out, None,
+                           f"automatic tree amplitude (off-shell recursion over the vertices of the model file "
+                           f"{d.model.automatic}); identical outgoing particles counted once by the symmetry factor")
+        d.ordering = Ordering(spec, tuple(range(len(names_in))), tuple(range(len(names_out))))
+        return
     if d.hadrons:
         subs = find_subprocesses(d.model, names_in, d.outgoing)
         if not subs:
@@ -418,6 +446,12 @@ def _parameters(d: _Draft) -> None:
     if d.hadrons and "alpha_s" in d.given:
         raise d.error("parameters.alpha_s", "alpha_s runs with the scale in hadron collisions; set partons.alpha_s "
                       "(set, one_loop, two_loop) and partons.alpha_s_mz instead")
+    for name in model.massless:
+        for pdg in (abs(species(name).pdg),):
+            if pdg in d.mass_overrides:
+                raise d.error(d.mass_keys[pdg], f"the {model.name} model treats {name} as massless (in its amplitudes and "
+                              "kinematics alike); its massive particles are " + ", ".join(
+                                  sorted(p for p in ("tau-", "b", "t") if p not in model.massless)))
     for which, governed, given, keys in (("mass", model.mass_params, d.mass_overrides, d.mass_keys),
                                          ("width", model.width_params, d.width_overrides, d.width_keys)):
         for name, param in governed.items():
@@ -428,6 +462,44 @@ def _parameters(d: _Draft) -> None:
     d.params = dict(model.resolve(d.given))
     if d.hadrons:
         d.params.pop("alpha_s", None)
+
+
+@_rule("With a model of automatic amplitudes the process conserves electric charge, quark number, the lepton number "
+       "of each generation and colour, and the model's vertices join its particles at tree level.")
+def _tree_process(d: _Draft) -> None:
+    if not d.model.automatic:
+        return
+    from .physics import tree
+
+    masses = {lookup(pdg).name: m for pdg, m in d.mass_overrides.items()}
+    names_in, names_out = [p.name for p in d.incoming], [p.name for p in d.outgoing]
+    why = tree.allowed(d.model.automatic, names_in, names_out, d.params, masses)
+    if why:
+        raise d.error("process", f"the {d.model.name} model has no process {d.label}: {why}")
+    _infrared(d, tree.singular_lines(d.model.automatic, names_in, names_out, d.params, masses))
+
+
+def _infrared(d: _Draft, lines) -> None:
+    """The cuts that keep an automatic process away from its soft and collinear singularities."""
+    cuts = d.sections["cuts"]
+    outgoing = [p.name for p in d.outgoing]
+    chosen = set(cuts.get("particles", outgoing))
+    n_in = len(d.incoming)
+    theta = cuts["theta_min_deg"] > 0.0 and cuts["theta_max_deg"] < 180.0
+    for kind, legs in lines:
+        names = [outgoing[i - n_in] for i in legs if i >= n_in]
+        covered = all(n in chosen for n in names)
+        if kind == "final" and not (covered and (cuts["pair_mass_min"] > 0.0 or cuts["delta_r_min"] > 0.0)):
+            raise d.error("cuts.pair_mass_min", f"{d.label} is singular where the pair mass of {' and '.join(names)} goes to zero "
+                          "(a massless line joins them: collinear or soft); set cuts.pair_mass_min (or cuts.delta_r_min) on them, for "
+                          "example pair_mass_min = 10")
+        if kind == "initial" and not (covered and (cuts["pt_min"] > 0.0 or theta)):
+            raise d.error("cuts.pt_min", f"{d.label} is singular where {names[0]} goes along a beam (a massless line "
+                          "exchanged with the beam particle); set cuts.pt_min (or theta_min_deg and theta_max_deg) on "
+                          f"it, for example pt_min = 5")
+        if kind == "soft" and not (covered and (cuts["pt_min"] > 0.0 or cuts["energy_min"] > 0.0)):
+            raise d.error("cuts.energy_min", f"{d.label} is singular where the {names[0]} becomes soft; set "
+                          "cuts.energy_min (or cuts.pt_min) on it, for example energy_min = 5")
 
 
 @_rule("cuts.particles names outgoing particles of the process (at least one); each minimum is below its maximum.")
@@ -816,7 +888,8 @@ def parse_doc(doc: dict, source: str, text: str) -> RunConfig:
         source=source, text=text, model=d.model.name, incoming=d.incoming, outgoing=d.outgoing,
         collider=sec["collider"], parameters=d.given, masses=d.mass_overrides, widths=d.width_overrides,
         cuts=sec["cuts"], partons=sec["partons"], scales=sec["scales"], decays=d.decays,
-        integration=sec["integration"], sampling=sec["sampling"], output=sec["output"], resolved=resolved)
+        integration=sec["integration"], sampling=sec["sampling"], output=sec["output"], resolved=resolved,
+        process_options={k: sec["process"][k] for k in ("helicities", "colours")} if d.model.automatic else {})
 
 
 def load_card(path: str | Path) -> RunConfig:

@@ -220,6 +220,10 @@ class FlatMap:
     def __call__(self, x, lo, hi):
         return lo + (hi - lo) * x, (hi - lo) * np.ones_like(x)
 
+    def jacobian(self, s, lo, hi):
+        """ds/dx at s (the inverse map's density is its reciprocal)."""
+        return (hi - lo) * np.ones_like(s)
+
 
 @dataclass(frozen=True)
 class BreitWignerMap:
@@ -235,6 +239,11 @@ class BreitWignerMap:
         s = m2 + mg * np.tan(a_lo + (a_hi - a_lo) * x)
         s = np.clip(s, lo, hi)
         return s, (a_hi - a_lo) * ((s - m2) ** 2 + mg * mg) / mg
+
+    def jacobian(self, s, lo, hi):
+        m2, mg = self.mass**2, self.mass * self.width
+        a_lo, a_hi = np.arctan((lo - m2) / mg), np.arctan((hi - m2) / mg)
+        return (a_hi - a_lo) * ((s - m2) ** 2 + mg * mg) / mg
 
 
 @dataclass(frozen=True)
@@ -252,6 +261,12 @@ class PowerMap:
         e = 1.0 - self.nu
         s = (lo**e + x * (hi**e - lo**e)) ** (1.0 / e)
         return s, (hi**e - lo**e) / e * s**self.nu
+
+    def jacobian(self, s, lo, hi):
+        if abs(self.nu - 1.0) < 1e-12:
+            return s * np.log(hi / lo)
+        e = 1.0 - self.nu
+        return (hi**e - lo**e) / e * s**self.nu
 
 
 @dataclass(frozen=True)

@@ -17,10 +17,16 @@ def build_process(cfg: RunConfig, checks: bool = True) -> Process:
     energies, a `DecayAtRest`, or a `HadronCollision`, wrapped in `WithDecays` when the card decays
     particles. `checks=False` leaves out the probe of the integrand and the check that every model
     parameter the card sets has an effect (`gen.processes.guard`)."""
-    if cfg.hadron_beams:
+    from ..physics.matrix import MODELS
+
+    if MODELS[cfg.model].automatic:
+        from .tree import TreeProcess
+
+        proc: Process = TreeProcess(cfg)
+    elif cfg.hadron_beams:
         from .hadron import HadronCollision
 
-        proc: Process = HadronCollision(cfg)
+        proc = HadronCollision(cfg)
     elif cfg.at_rest:
         from .at_rest import DecayAtRest
 

@@ -8,12 +8,14 @@ from dataclasses import dataclass, field
 
 from ..particles import HADRON_PARTONS, Species
 from . import electroweak, qcd, qed, scalar
+from .automatic import automatic_models
 from .registry import ColourFlow, Model, Ordering, ProcessSpec
 
 __all__ = ["MODELS", "Model", "ProcessSpec", "ColourFlow", "Ordering", "find_process", "Subprocess",
            "find_subprocesses"]
 
 MODELS: dict[str, Model] = {m.name: m for m in (scalar.MODEL, qed.MODEL, electroweak.MODEL, qcd.MODEL)}
+MODELS.update({m.name: m for m in automatic_models(MODELS)})
 
 
 def find_process(model: Model, incoming: tuple[str, ...], outgoing: tuple[str, ...]) -> Ordering | None:

@@ -180,10 +180,16 @@ class Model:
     inapplicable: Callable[[Mapping[str, object]], dict[str, str]] = lambda given: {}
     #: the resolved parameters that are couplings, shown in every run's summary
     couplings: tuple[str, ...] = ()
+    #: the model file of the automatic amplitudes (`gen.physics.tree`), None for a hand-coded library
+    automatic: str | None = None
+    #: particles the model treats as massless (in amplitudes and kinematics alike)
+    massless: tuple[str, ...] = ()
 
     def masses(self, par: Mapping[str, float]) -> dict[str, float]:
-        """Masses (GeV) the model sets, from its resolved parameters; by particle name."""
-        return {name: float(par[p]) for name, p in self.mass_params.items()}
+        """Masses (GeV) the model sets, from its resolved parameters or as massless; by particle name."""
+        out = {name: 0.0 for name in self.massless}
+        out.update({name: float(par[p]) for name, p in self.mass_params.items()})
+        return out
 
     def widths(self, par: Mapping[str, float]) -> dict[str, float]:
         """Widths (GeV) the model sets, from its resolved parameters; by particle name."""
