@@ -614,6 +614,16 @@ PHOTONS = card("qcd", ("p", "p"), ("gamma", "jet"), "sqrt_s = 13600.0", "[cuts]\
 EE_QQG = card("qcd", ("e-", "e+"), ("u", "ubar", "g"), "sqrt_s = 30.0", "[cuts]\npair_mass_min = 5.0\n" + FAST[0],
               FAST[1])
 SCALAR = card("scalar", ("phi", "phi"), ("phi", "phi"), "sqrt_s = 10.0", FAST[0], FAST[1])
+# the automatic amplitudes
+SM_MUMU = card("standard", ("e-", "e+"), ("mu-", "mu+"), "sqrt_s = 91.1879", FAST[0], FAST[1])
+SM_ZH = card("standard", ("e-", "e+"), ("Z", "H"), "sqrt_s = 240.0", FAST[0], FAST[1])
+SM_W = card("standard", ("u", "dbar"), ("e+", "nu_e"), "sqrt_s = 80.0", FAST[0], FAST[1])
+SM_WS = card("standard", ("u", "sbar"), ("e+", "nu_e"), "sqrt_s = 80.0", FAST[0], FAST[1])
+SM_H = card("standard", ("b", "bbar"), ("tau-", "tau+"), "sqrt_s = 125.0", FAST[0], FAST[1])
+SM_QQG = card("standard", ("e-", "e+"), ("u", "ubar", "g"), "sqrt_s = 30.0",
+              "[cuts]\npair_mass_min = 5.0\npt_min = 1.0\nenergy_min = 1.0\n" + FAST[0], FAST[1])
+QED_TREE = card("qed-tree", ("e-", "e+"), ("mu-", "mu+"), "sqrt_s = 10.0", FAST[0], FAST[1])
+SCALAR_TREE = card("scalar-tree", ("phi", "phi"), ("phi", "phi"), "sqrt_s = 10.0", FAST[0], FAST[1])
 
 #: (model, parameter) -> a card where it must be accepted (it has an effect there)
 EFFECTIVE = {
@@ -635,6 +645,23 @@ EFFECTIVE = {
     ("scalar", "mass"): _with_parameters(SCALAR, "mass = 2.0"),
     ("scalar", "quartic"): _with_parameters(SCALAR, "quartic = 0.5"),
     ("scalar", "cubic"): _with_parameters(SCALAR, "cubic = 1.5"),
+    ("standard", "scheme"): _with_parameters(SM_MUMU, 'scheme = "thomson"'),
+    ("standard", "m_Z"): _with_parameters(SM_MUMU, "m_Z = 91.0"),
+    ("standard", "width_Z"): _with_parameters(SM_MUMU, "width_Z = 2.6"),
+    ("standard", "m_W"): _with_parameters(SM_MUMU, "m_W = 80.5"),
+    ("standard", "m_H"): _with_parameters(SM_ZH, "m_H = 126.0"),
+    ("standard", "width_W"): _with_parameters(SM_W, "width_W = 2.2"),
+    ("standard", "width_H"): _with_parameters(SM_H, "width_H = 0.0045"),
+    ("standard", "cabibbo_angle"): _with_parameters(SM_WS, "cabibbo_angle = 0.227"),
+    ("standard", "g_fermi"): _with_parameters(SM_MUMU, "g_fermi = 1.2e-5"),
+    ("standard", "alpha"): _with_parameters(SM_MUMU, 'scheme = "thomson"\nalpha = 0.0075'),
+    ("standard", "sw2"): _with_parameters(SM_MUMU, 'scheme = "zpole"\nsw2 = 0.232'),
+    ("standard", "alpha_s"): _with_parameters(SM_QQG, "alpha_s = 0.14"),
+    ("standard", "width_scheme"): _with_parameters(SM_MUMU, 'width_scheme = "complex_mass"'),
+    ("qed-tree", "alpha"): _with_parameters(QED_TREE, "alpha = 0.0078"),
+    ("scalar-tree", "mass"): _with_parameters(SCALAR_TREE, "mass = 2.0"),
+    ("scalar-tree", "quartic"): _with_parameters(SCALAR_TREE, "quartic = 0.5"),
+    ("scalar-tree", "cubic"): _with_parameters(SCALAR_TREE, "cubic = 1.5"),
 }
 
 INEFFECTIVE = {
@@ -645,6 +672,8 @@ INEFFECTIVE = {
     "a fixed alpha_s at a hadron collider": (_with_parameters(JETS, "alpha_s = 0.2"), "parameters.alpha_s"),
     "a top mass in e+e- -> mu+mu-": (_with_parameters(EE_MUMU, "[parameters.masses]\nt = 175.0"),
                                      "parameters.masses.t"),
+    "a Cabibbo angle in automatic e+e- -> mu+mu-": (_with_parameters(SM_MUMU, "cabibbo_angle = 0.2"),
+                                                    "parameters.cabibbo_angle"),
 }
 
 

@@ -19,15 +19,19 @@ def _make(name: str, base: Model) -> Model:
     tm = load(name)
     params = dict(base.params)
     params.update({k: _EXTRA[k] for k in tm.extra_parameters})
+    unstable = any("width" in entry for entry in tm.particles.values())
     params["width_scheme"] = Key(str, tm.widths, doc="widths of unstable particles in propagators: fixed (in "
                                  "time-like propagators only) or complex_mass (m^2 - i m Gamma everywhere, and the "
                                  "couplings that follow from the complex masses)", choices=WIDTH_SCHEMES)
+    if not unstable:
+        del params["width_scheme"]
 
     def resolve(over):
         out = dict(base.resolve({k: v for k, v in over.items() if k in base.params}))
         for k in tm.extra_parameters:
             out[k] = float(over.get(k, _EXTRA[k].default))
-        out["width_scheme"] = str(over.get("width_scheme", tm.widths))
+        if unstable:
+            out["width_scheme"] = str(over.get("width_scheme", tm.widths))
         return out
 
     def inapplicable(given):

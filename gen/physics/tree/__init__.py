@@ -27,6 +27,7 @@ def resolve(model: str, given: Mapping[str, object] | None = None) -> dict:
     par = dict(base.resolve({k: v for k, v in given.items() if k in base.params}))
     if "alpha_s" in tm.extra_parameters:
         par["alpha_s"] = float(given.get("alpha_s", 0.118))
+    par["width_scheme"] = str(given.get("width_scheme", tm.widths))
     return par
 
 
@@ -90,7 +91,7 @@ def singular_lines(model: str, incoming: Sequence[str], outgoing: Sequence[str],
             outs = [i for i in idx if i >= n_in]
             if any(legs[i].mass > 0 for i in idx):
                 continue
-            if not ins and len(outs) == 2:
+            if not ins and len(outs) == 2 < len(outgoing):
                 found.append(("final", tuple(outs)))
             elif len(ins) == 1 and len(outs) == 1:
                 found.append(("initial", (ins[0], outs[0])))

@@ -257,7 +257,8 @@ class TreeAmplitude:
         return tuple(out)
 
     def probe_momenta(self, seed: int, n: int) -> np.ndarray:
-        """Random momenta (n, legs, 4) conserving momentum, well inside the phase space (for probes and tests)."""
+        """Random momenta (n, legs, 4) conserving momentum, well inside the phase space, in a generic frame
+        (for probes and tests)."""
         from ..phasespace import rambo
 
         rng = np.random.default_rng(seed)
@@ -279,6 +280,21 @@ class TreeAmplitude:
             p[:, 0] = (e1, 0.0, 0.0, q)
             p[:, 1] = (sqrt_s - e1, 0.0, 0.0, -q)
         p[:, n_in:] = out
+        # a generic frame: a random rotation and boost, so that no configuration vanishes by the
+        # accident of beams along an axis (helicity states of massive particles depend on the frame)
+        axis = rng.normal(size=3)
+        axis /= np.linalg.norm(axis)
+        angle = rng.uniform(0.3, 2.8)
+        k = np.array([[0, -axis[2], axis[1]], [axis[2], 0, -axis[0]], [-axis[1], axis[0], 0]])
+        rot = np.eye(3) + math.sin(angle) * k + (1 - math.cos(angle)) * (k @ k)
+        p[..., 1:] = p[..., 1:] @ rot.T
+        beta = rng.normal(size=3)
+        beta *= 0.3 / np.linalg.norm(beta)
+        g = 1.0 / math.sqrt(1.0 - 0.09)
+        bp = p[..., 1:] @ beta
+        e = p[..., 0].copy()
+        p[..., 0] = g * (e + bp)
+        p[..., 1:] = p[..., 1:] + ((g - 1.0) * bp / 0.09 + g * e)[..., None] * beta
         return p
 
     # --- evaluation ------------------------------------------------------------------------------
