@@ -308,10 +308,12 @@ def test_a_process_the_model_forbids_names_the_rule(incoming, outgoing, rule):
 
 
 def _card(outgoing, cuts="", model="standard", sqrt_s=91.19, extra=""):
-    return (f'[process]\nmodel = "{model}"\nincoming = ["e-", "e+"]\noutgoing = {outgoing!r}\n{extra}'.replace("'", '"')
-            + f"\n[collider]\nsqrt_s = {sqrt_s}\n[cuts]\n{cuts}\n[integration]\nwarmup_iterations = 2\niterations = 3\n"
-            "points_per_iteration = 2000\n[sampling]\nevents = 200\nweighted_events = 100\ncalibration_points = 2000\n"
-            "chunk = 1000\n")
+    names = ", ".join(f'"{n}"' for n in outgoing)
+    lines = ["[process]", f'model = "{model}"', 'incoming = ["e-", "e+"]', f"outgoing = [{names}]", extra,
+             "[collider]", f"sqrt_s = {sqrt_s}", "[cuts]", cuts,
+             "[integration]", "warmup_iterations = 2", "iterations = 3", "points_per_iteration = 2000",
+             "[sampling]", "events = 200", "weighted_events = 100", "calibration_points = 2000", "chunk = 1000"]
+    return "\n".join(lines) + "\n"
 
 
 @pytest.mark.parametrize("outgoing, cuts, key", [

@@ -67,12 +67,13 @@ class Topology:
     def _min_mass(self, c) -> float:
         return float(self.masses[list(_leaves(c))].sum())
 
-    def _bounds(self, node: Node, child_index: int, m_parent, m_sibling_known):
-        """The s range of a child: from its threshold (or cut) to (M - sibling)^2."""
-        c = node.children[child_index]
-        lo = max(self._min_mass(c) ** 2, c.s_min)
-        hi = (m_parent - m_sibling_known) ** 2
-        return lo, hi
+    def _child_range(self, node: Node, k: int, m_parent, ms, n_pts: int):
+        """The s range of child k, as `generate` draws it: from its threshold (or cut) to
+        (M - m_sibling)^2, the sibling at its threshold for the first child and at its drawn mass
+        (ms[0]) for the second."""
+        c = node.children[k]
+        sib = ms[0] if k == 1 else np.full(n_pts, self._min_mass(node.children[0 if k else 1]))
+        return max(self._min_mass(c) ** 2, c.s_min), (m_parent - sib) ** 2
 
     def generate(self, x: np.ndarray, sqrt_s: float):
         """Momenta (N, n, 4) in the centre-of-mass frame and weights (N,), or zero weight where the
@@ -90,9 +91,7 @@ class Topology:
                 if isinstance(c, int):
                     ms.append(np.full(n_pts, self.masses[c]))
                     continue
-                other = node.children[1 - k]
-                sib = ms[0] if k == 1 else np.full(n_pts, self._min_mass(other))
-                lo, hi = self._bounds(node, k, m_parent, sib)
+                lo, hi = self._child_range(node, k, m_parent, ms, n_pts)
                 ok = hi > lo
                 hi_s = np.where(ok, hi, lo + 1.0)
                 s, jac = c.smap(x[:, mcol], lo, hi_s)
@@ -125,9 +124,7 @@ class Topology:
                     ms.append(np.full(n_pts, self.masses[c]))
                     continue
                 s = np.maximum(mass(p[:, list(c.leaves)].sum(axis=1)), 0.0) ** 2
-                other = node.children[1 - k]
-                sib = ms[0] if k == 1 else np.full(n_pts, self._min_mass(other))
-                lo, hi = self._bounds(node, k, m_parent, sib)
+                lo, hi = self._child_range(node, k, m_parent, ms, n_pts)
                 inside = (s >= lo) & (s <= hi) & (hi > lo)
                 jac = c.smap.jacobian(s, lo, np.where(hi > lo, hi, lo + 1.0))
                 w = np.where(inside, w * jac / (2.0 * math.pi), 0.0)
