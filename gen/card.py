@@ -42,6 +42,9 @@ SCALE_CHOICES = ("auto", "sqrt_shat", "half_ht", "pt")
 
 #: particles whose masses hadron collisions keep (partons, leptons and photons are massless there)
 MASSIVE_IN_HADRON_COLLISIONS = ("t", "tbar", "W+", "W-", "Z", "H")
+#: alpha_s at which automatic amplitudes of hadron collisions are built and checked; it runs per
+#: event from there (`TreeAmplitude.squared`)
+TREE_ALPHA_S_REFERENCE = 0.118
 
 #: the card's sections and keys; [parameters] is described by the chosen model, [decays] by DECAY_KEYS
 SPEC: dict[str, dict[str, Key]] = {
@@ -299,7 +302,9 @@ def _rule(doc: str):
 
 
 @_rule("process.incoming holds two particles, two hadrons (p, pbar), or one particle that decays at rest; "
-       "process.outgoing two or three particles, or one or two particles or groups with hadron beams.")
+       "process.outgoing two or three particles, or one or two particles or groups with hadron beams; the "
+       "automatic amplitudes take two to six outgoing particles at fixed beams and two or three particles or "
+       "groups with hadron beams.")
 def _particles(d: _Draft) -> None:
     proc = d.sections["process"]
     d.model = MODELS[proc["model"]]
@@ -318,12 +323,14 @@ def _particles(d: _Draft) -> None:
         if k in proc and k in d.doc.get("process", {}) and not automatic:
             raise d.error(f"process.{k}", f"applies to models of automatic amplitudes only (standard, qed-tree, "
                           f"scalar-tree); the {d.model.name} model's processes are hand-coded and summed exactly")
-    if automatic and (d.hadrons or d.at_rest):
-        raise d.error("process.incoming", f"the automatic amplitudes of the {d.model.name} model run at fixed beam "
-                      "energies for now; for hadron beams or decays at rest use the hand-coded models (qcd, "
-                      "electroweak)")
+    if automatic and d.at_rest:
+        raise d.error("process.incoming", f"the automatic amplitudes of the {d.model.name} model take two beams; "
+                      "for decays at rest use the hand-coded models (qed, electroweak)")
     if d.hadrons:
-        if not 1 <= len(d.outgoing) <= 2:
+        if automatic and not 2 <= len(d.outgoing) <= 3:
+            raise d.error("process.outgoing", f"with hadron beams the automatic amplitudes take 2 or 3 outgoing "
+                          f"particles or groups, found {len(d.outgoing)}")
+        if not automatic and not 1 <= len(d.outgoing) <= 2:
             raise d.error("process.outgoing", f"with hadron beams expected 1 or 2 particles, found {len(d.outgoing)}")
         return
     for i, p in enumerate(d.incoming + d.outgoing):
@@ -386,6 +393,8 @@ def _process_in_model(d: _Draft) -> None:
     names_out = tuple(p.name for p in d.outgoing)
     if d.model.automatic:
         # checked against the model's vertices once the parameters are known (the rule after [parameters])
+        if d.hadrons:
+            return
         spec = ProcessSpec(d.model.name, names_in, names_out, None,
                            f"automatic tree amplitude (off-shell recursion over the vertices of the model file "
                            f"{d.model.automatic}); identical outgoing particles counted once by the symmetry factor")
@@ -465,7 +474,9 @@ def _parameters(d: _Draft) -> None:
 
 
 @_rule("With a model of automatic amplitudes the process conserves electric charge, quark number, the lepton number "
-       "of each generation and colour, and the model's vertices join its particles at tree level.")
+       "of each generation and colour, and the model's vertices join its particles at tree level; with hadron "
+       "beams at least one parton process of the beams' partons fills the outgoing particles or groups, and every "
+       "massless coloured particle or photon of each has the cut that keeps it away from its singularities.")
 def _tree_process(d: _Draft) -> None:
     if not d.model.automatic:
         return
@@ -473,10 +484,38 @@ def _tree_process(d: _Draft) -> None:
 
     masses = {lookup(pdg).name: m for pdg, m in d.mass_overrides.items()}
     names_in, names_out = [p.name for p in d.incoming], [p.name for p in d.outgoing]
+    if d.hadrons:
+        _tree_subprocesses(d, tree, masses)
+        return
     why = tree.allowed(d.model.automatic, names_in, names_out, d.params, masses)
     if why:
         raise d.error("process", f"the {d.model.name} model has no process {d.label}: {why}")
     _infrared(d, tree.singular_lines(d.model.automatic, names_in, names_out, d.params, masses))
+
+
+def _tree_subprocesses(d: _Draft, tree, masses) -> None:
+    """The parton processes of an automatic model that fill the card's slots at hadron beams."""
+    params = dict(d.params, alpha_s=TREE_ALPHA_S_REFERENCE)
+    masses = dict(tree.HADRON_MASSLESS, **masses)
+    first: dict[str, int] = {}
+    same = [first.setdefault(p.name, k) for k, p in enumerate(d.outgoing)]
+    found = tree.hadron_subprocesses(d.model.automatic, [p.name for p in d.incoming],
+                                     [p.members or (p.name,) for p in d.outgoing], same, params, masses)
+    if not found:
+        raise d.error("process", f"the {d.model.name} model has no parton process for {d.label} at tree level: no "
+                      "partons of the beams (g, u, d, s, c, b and antiquarks) make these particles while conserving "
+                      "charge, quark and lepton numbers and colour")
+    source = (f"automatic tree amplitude (off-shell recursion over the vertices of the model file "
+              f"{d.model.automatic}); identical outgoing particles counted once by the symmetry factor")
+    n = len(d.outgoing)
+    d.subprocesses = tuple(Subprocess(ProcessSpec(d.model.name, ab, outs, None, source), (0, 1), tuple(range(n)),
+                                      partons=ab, outgoing=outs) for ab, outs in found)
+    seen = set()
+    for ab, outs in found:
+        key = (tuple(sorted(ab)), outs)
+        if key not in seen:
+            seen.add(key)
+            _infrared(d, tree.singular_lines(d.model.automatic, ab, outs, params, masses))
 
 
 def _infrared(d: _Draft, lines) -> None:
@@ -578,7 +617,7 @@ def _mass(d: _Draft, name: str) -> float:
        "of pair masses; without a mass cut, pair masses start at the parton set's lowest scale.")
 def _kinematics(d: _Draft) -> None:
     if d.hadrons:
-        _hadron_kinematics(d)
+        (_tree_hadron_kinematics if d.model.automatic else _hadron_kinematics)(d)
         return
     d.names = [p.name for p in d.incoming + d.outgoing]
     d.masses = [_mass(d, n) for n in d.names]
@@ -620,12 +659,16 @@ def _kinematics(d: _Draft) -> None:
                       "(0.1 sqrt(s), a y cut of 0.01)")
 
 
-def _hadron_kinematics(d: _Draft) -> None:
-    col, cuts = d.sections["collider"], d.sections["cuts"]
+def _hadron_beams(d: _Draft) -> float:
+    """The hadron beams' four-momenta into d.beams; returns s (GeV^2)."""
+    col = d.sections["collider"]
     e1, e2 = (0.5 * float(col["sqrt_s"]),) * 2 if "sqrt_s" in col else map(float, col["beam_energies"])
     d.beams = ((e1, 0.0, 0.0, e1), (e2, 0.0, 0.0, -e2))
-    s = 4.0 * e1 * e2
-    sqrt_s = math.sqrt(s)
+    return 4.0 * e1 * e2
+
+
+def _slot_masses(d: _Draft) -> list[float]:
+    """The mass of each outgoing slot in a hadron collision (one mass per slot)."""
     slot_masses = []
     for k, slot in enumerate(d.outgoing):
         ms = {_mass(d, sub.outgoing[k]) if sub.outgoing[k] in MASSIVE_IN_HADRON_COLLISIONS else 0.0
@@ -636,6 +679,34 @@ def _hadron_kinematics(d: _Draft) -> None:
         slot_masses.append(ms.pop())
     d.names = [p.name for p in d.incoming + d.outgoing]
     d.masses = [0.0, 0.0] + slot_masses
+    return slot_masses
+
+
+def _tree_hadron_kinematics(d: _Draft) -> None:
+    """s-hat from the slots' transverse masses at the p_T cut (and the mass cut on all of them) to s."""
+    cuts = d.sections["cuts"]
+    s = _hadron_beams(d)
+    slot_masses = _slot_masses(d)
+    selected = cuts.get("particles", [p.name for p in d.outgoing])
+    pt_min = float(cuts["pt_min"])
+    shat_min = sum(math.hypot(m, pt_min if p.name in selected else 0.0) for m, p in zip(slot_masses, d.outgoing)) ** 2
+    if len(selected) == len(d.outgoing):
+        shat_min = max(shat_min, cuts["mass_min"] ** 2)
+    shat_max = min(s, cuts["mass_max"] ** 2) if len(selected) == len(d.outgoing) else s
+    if shat_min <= 0.0:
+        raise d.error("cuts.pt_min", f"{d.label} has massless particles only: give cuts.pt_min (for example 20 GeV) or "
+                      "cuts.mass_min, so that the parton energies stay away from zero")
+    if shat_min >= shat_max:
+        raise d.error("cuts", f"the cuts leave no room: s-hat from {shat_min:g} to {shat_max:g} GeV^2 at "
+                      f"sqrt(s) = {math.sqrt(s):g} GeV")
+    d.shat_range = (shat_min, shat_max)
+
+
+def _hadron_kinematics(d: _Draft) -> None:
+    cuts = d.sections["cuts"]
+    s = _hadron_beams(d)
+    sqrt_s = math.sqrt(s)
+    slot_masses = _slot_masses(d)
     specs = [sub.spec for sub in d.subprocesses]
     if len(d.outgoing) == 1:
         m_res = float(d.params[specs[0].resonance[0]])

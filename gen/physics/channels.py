@@ -39,6 +39,11 @@ class Node:
     s_min: float = 0.0
 
 
+def _per_point(sqrt_s, n: int) -> np.ndarray:
+    """sqrt(s) as an array (n,): one value for all points, or one per point (hadron collisions)."""
+    return np.array(np.broadcast_to(np.asarray(sqrt_s, float), (n,)))
+
+
 def _leaves(c) -> tuple[int, ...]:
     return (c,) if isinstance(c, int) else c.leaves
 
@@ -75,14 +80,16 @@ class Topology:
         sib = ms[0] if k == 1 else np.full(n_pts, self._min_mass(node.children[0 if k else 1]))
         return max(self._min_mass(c) ** 2, c.s_min), (m_parent - sib) ** 2
 
-    def generate(self, x: np.ndarray, sqrt_s: float):
-        """Momenta (N, n, 4) in the centre-of-mass frame and weights (N,), or zero weight where the
-        point cannot be made (a bound crossed)."""
+    def generate(self, x: np.ndarray, sqrt_s):
+        """Momenta (N, n, 4) in the centre-of-mass frame of energy sqrt_s (a number, or one per
+        point) and weights (N,), or zero weight where the point cannot be made (a bound crossed)."""
         n_pts = x.shape[0]
         out = np.zeros((n_pts, self.n, 4))
         weight = np.ones(n_pts)
-        moms = {id(self.root): np.tile([sqrt_s, 0.0, 0.0, 0.0], (n_pts, 1))}
-        m_of = {id(self.root): np.full(n_pts, float(sqrt_s))}
+        root = _per_point(sqrt_s, n_pts)
+        moms = {id(self.root): np.zeros((n_pts, 4))}
+        moms[id(self.root)][:, 0] = root
+        m_of = {id(self.root): root}
         mcol, acol = 0, self.n - 2
         for node in self.order:
             m_parent = m_of[id(node)]
@@ -110,12 +117,12 @@ class Topology:
                     moms[id(c)], m_of[id(c)] = p, m
         return out, weight
 
-    def density(self, p: np.ndarray, sqrt_s: float) -> np.ndarray:
+    def density(self, p: np.ndarray, sqrt_s) -> np.ndarray:
         """1/weight of this topology at momenta p (N, n, 4): the density with which `generate` makes
         them from uniform points (0 where it cannot)."""
         n_pts = p.shape[0]
         w = np.ones(n_pts)
-        m_of = {id(self.root): np.full(n_pts, float(sqrt_s))}
+        m_of = {id(self.root): _per_point(sqrt_s, n_pts)}
         for node in self.order:
             m_parent = m_of[id(node)]
             ms = []
@@ -146,11 +153,12 @@ class MultiChannel:
         self.ndim = topologies[0].ndim + (1 if self.k > 1 else 0)
         self.alpha = np.full(self.k, 1.0 / self.k)
 
-    def generate(self, x: np.ndarray, sqrt_s: float):
+    def generate(self, x: np.ndarray, sqrt_s):
         """Momenta, the phase-space weight 1 / sum_j alpha_j g_j, and the channel of each point."""
         if self.k == 1:
             p, w = self.topologies[0].generate(x, sqrt_s)
             return p, w, np.zeros(x.shape[0], np.int64)
+        sqrt_s = _per_point(sqrt_s, x.shape[0])
         ch = np.minimum((x[:, 0] * self.k).astype(np.int64), self.k - 1)
         rest = x[:, 1:]
         p = np.zeros((x.shape[0], self.topologies[0].n, 4))
@@ -158,11 +166,11 @@ class MultiChannel:
         for i, top in enumerate(self.topologies):
             sel = ch == i
             if sel.any():
-                p[sel], own[sel] = top.generate(rest[sel], sqrt_s)
+                p[sel], own[sel] = top.generate(rest[sel], sqrt_s[sel])
         live = own > 0
         g = np.zeros(x.shape[0])
         for i, top in enumerate(self.topologies):
-            g[live] += self.alpha[i] * top.density(p[live], sqrt_s)
+            g[live] += self.alpha[i] * top.density(p[live], sqrt_s[live])
         w = np.zeros(x.shape[0])
         w[live] = 1.0 / g[live]
         return p, w, ch

@@ -105,45 +105,24 @@ class HadronCollision(Process):
     # --- set-up ------------------------------------------------------------------------------
     def _index_subprocesses(self) -> None:
         """Parton ids, the distinct |M|^2 evaluations, the luminosity coefficients and the flows."""
-        names = HADRON_PARTONS["p"]
-        sign = {"p": 1, "pbar": -1}
-        b1, b2 = (p.name for p in self.cfg.incoming)
-        # x f of parton `name` in beam `b` is x f of PDG id sign * pdg in the proton
-        self.pids1 = [sign[b1] * species(n).pdg if species(n).is_quark else 21 for n in names]
-        self.pids2 = [sign[b2] * species(n).pdg if species(n).is_quark else 21 for n in names]
         subs = self.subprocesses
         keys: dict[tuple, int] = {}
         #: (spec, t <-> u swapped, out_perm) of each distinct |M|^2 evaluation
         self.evaluations: list[tuple] = []
         self.sub_evaluation = np.empty(len(subs), np.int64)
-        self.sub_parton1 = np.array([names.index(sub.partons[0]) for sub in subs], np.int64)
-        self.sub_parton2 = np.array([names.index(sub.partons[1]) for sub in subs], np.int64)
-        self.sub_symmetry = np.array([sub.spec.symmetry for sub in subs])
         for i, sub in enumerate(subs):
             key = (id(sub.spec.matrix), sub.t_u_swapped, sub.out_perm)
             if key not in keys:
                 keys[key] = len(self.evaluations)
                 self.evaluations.append((sub.spec, sub.t_u_swapped, sub.out_perm))
             self.sub_evaluation[i] = keys[key]
-        # the luminosity sum sum_k |M_k|^2 sum_(a,b) C_k,ab f1_a f2_b in the cheaper of two forms: over the
-        # parton pairs that occur (Drell-Yan: 10 pairs) or, when most pairs occur (dijets: 121), as one
-        # matrix product of the coefficient rows with f2 (measured in gen.benchmark --hadron)
-        n_names = len(names)
-        coeff = np.zeros((len(self.evaluations), n_names, n_names))
-        np.add.at(coeff, (self.sub_evaluation, self.sub_parton1, self.sub_parton2), self.sub_symmetry)
-        self.coeff_rows = coeff.reshape(-1, n_names)
-        pairs = sorted(set(zip(self.sub_parton1.tolist(), self.sub_parton2.tolist())))
-        self.pair_a = np.array([a for a, _ in pairs], np.int64)
-        self.pair_b = np.array([b for _, b in pairs], np.int64)
-        self.pair_coeff = coeff[:, self.pair_a, self.pair_b]  # (evaluations, pairs that occur)
-        self.by_pairs = len(pairs) <= 2 * n_names
-        n = 2 + self.n_out
-        self.sub_pdg = np.array([[species(p).pdg for p in sub.partons + sub.outgoing] for sub in subs], np.int32)
+        self._luminosity_tables()
         self.strong = max(sub.spec.strong_order for sub in subs) > 0
         # the default scale: half_ht when coloured or massive particles come out, else the pair mass
         heavy = any(species(p).colour != 1 or p in MASSIVE_IN_HADRON_COLLISIONS for sub in subs for p in sub.outgoing)
         self.auto_scale = "half_ht" if heavy and self.n_out == 2 else "sqrt_shat"
         # colour: subprocesses sharing flows and orderings share tags in card order
+        n = 2 + self.n_out
         self.flow_groups: list[tuple[tuple, np.ndarray, bool]] = []  # flows, their tags, t <-> u swapped
         group_of: dict[tuple, int] = {}
         self.sub_flow_group = np.empty(len(subs), np.int64)
@@ -157,6 +136,33 @@ class HadronCollision(Process):
         # slots that may be shuffled: the same name in the card
         names_out = [p.name for p in self.cfg.outgoing]
         self.shuffle = self.n_out == 2 and names_out[0] == names_out[1]
+
+    def _luminosity_tables(self) -> None:
+        """The beams' parton indices, symmetry factors and luminosity coefficients of the
+        subprocesses, once `self.evaluations` and `self.sub_evaluation` are set."""
+        names = HADRON_PARTONS["p"]
+        sign = {"p": 1, "pbar": -1}
+        b1, b2 = (p.name for p in self.cfg.incoming)
+        # x f of parton `name` in beam `b` is x f of PDG id sign * pdg in the proton
+        self.pids1 = [sign[b1] * species(n).pdg if species(n).is_quark else 21 for n in names]
+        self.pids2 = [sign[b2] * species(n).pdg if species(n).is_quark else 21 for n in names]
+        subs = self.subprocesses
+        self.sub_parton1 = np.array([names.index(sub.partons[0]) for sub in subs], np.int64)
+        self.sub_parton2 = np.array([names.index(sub.partons[1]) for sub in subs], np.int64)
+        self.sub_symmetry = np.array([sub.spec.symmetry for sub in subs])
+        self.sub_pdg = np.array([[species(p).pdg for p in sub.partons + sub.outgoing] for sub in subs], np.int32)
+        # the luminosity sum sum_k |M_k|^2 sum_(a,b) C_k,ab f1_a f2_b in the cheaper of two forms: over the
+        # parton pairs that occur (Drell-Yan: 10 pairs) or, when most pairs occur (dijets: 121), as one
+        # matrix product of the coefficient rows with f2 (measured in gen.benchmark --hadron)
+        n_names = len(names)
+        coeff = np.zeros((len(self.evaluations), n_names, n_names))
+        np.add.at(coeff, (self.sub_evaluation, self.sub_parton1, self.sub_parton2), self.sub_symmetry)
+        self.coeff_rows = coeff.reshape(-1, n_names)
+        pairs = sorted(set(zip(self.sub_parton1.tolist(), self.sub_parton2.tolist())))
+        self.pair_a = np.array([a for a, _ in pairs], np.int64)
+        self.pair_b = np.array([b for _, b in pairs], np.int64)
+        self.pair_coeff = coeff[:, self.pair_a, self.pair_b]  # (evaluations, pairs that occur)
+        self.by_pairs = len(pairs) <= 2 * n_names
 
     def _set_up_phase_space(self) -> None:
         res = self.cfg.resolved

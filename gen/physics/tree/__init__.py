@@ -12,7 +12,7 @@ from ..particles import species
 from .amplitudes import ProcessRefused, TreeAmplitude
 from .model import MODEL_FILES, ModelFileError, TreeModel, load
 
-__all__ = ["build", "allowed", "singular_lines", "resolve", "TreeAmplitude", "ProcessRefused", "ModelFileError", "TreeModel", "load",
+__all__ = ["build", "allowed", "singular_lines", "resolve", "hadron_subprocesses", "HADRON_MASSLESS", "TreeAmplitude", "ProcessRefused", "ModelFileError", "TreeModel", "load",
            "MODEL_FILES"]
 
 
@@ -64,6 +64,51 @@ def allowed(model: str, incoming: Sequence[str], outgoing: Sequence[str], params
     if not rec.exists:
         return "no vertex of the model joins these particles at tree level"
     return None
+
+
+#: particles massless in hadron collisions beyond those the model files treat as massless (the
+#: five-flavour scheme: the b quark is a parton; leptons are massless there)
+HADRON_MASSLESS = {"b": 0.0, "tau-": 0.0}
+
+
+def hadron_subprocesses(model: str, beams: Sequence[str], slots: Sequence[Sequence[str]],
+                        same_slot: Sequence[int], params: Mapping[str, object] | None = None,
+                        masses: Mapping[str, float] | None = None) -> list[tuple[tuple[str, str], tuple[str, ...]]]:
+    """Every parton process (partons of beams 1 and 2, the particle in each outgoing slot) that
+    the model has at tree level, with the slots filled from their members. `same_slot[k]` is the
+    first slot with the same card name as slot k: such slots are filled in one order only
+    (members in non-decreasing order), so that no final state is counted twice."""
+    import itertools
+
+    from ..particles import HADRON_PARTONS
+    from .amplitudes import conservation
+    from .model import ckm_from
+    from .recursion import Leg, Recursion
+
+    tm = load(model)
+    mass_of, _, par = _mass_functions(model, None, dict(HADRON_MASSLESS, **(masses or {})), None, params)
+    vertices = tm.numeric(par, "fixed", mass_of, ckm_from(par))
+    # the slot before each slot with the same card name (-1 for the first)
+    before = [max((j for j in range(k) if same_slot[j] == same_slot[k]), default=-1) for k in range(len(slots))]
+    exists: dict[tuple, bool] = {}
+    out = []
+    for a in HADRON_PARTONS[beams[0]]:
+        for b in HADRON_PARTONS[beams[1]]:
+            for fill in itertools.product(*[range(len(m)) for m in slots]):
+                if any(j >= 0 and fill[k] < fill[j] for k, j in enumerate(before)):
+                    continue
+                names = tuple(slots[k][i] for k, i in enumerate(fill))
+                legs = [Leg(a, True, 0.0), Leg(b, True, 0.0)] + [Leg(n, False, 0.0) for n in names]
+                if any(n not in tm.field_names for n in (a, b) + names) or conservation(legs):
+                    continue
+                key = (tuple(sorted((a, b))), tuple(sorted(names)))
+                if key not in exists:
+                    legs = [Leg(a, True, mass_of(a)), Leg(b, True, mass_of(b))] + [Leg(n, False, mass_of(n))
+                                                                                   for n in names]
+                    exists[key] = Recursion(legs, vertices, {}, {}).exists
+                if exists[key]:
+                    out.append(((a, b), names))
+    return out
 
 
 def singular_lines(model: str, incoming: Sequence[str], outgoing: Sequence[str],

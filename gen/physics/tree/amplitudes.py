@@ -133,7 +133,28 @@ class TreeAmplitude:
         for leg in self.legs[:len(self.incoming)]:
             self.average /= len(leg.helicities) * {1: 1, 3: 3, -3: 3, 8: 8}[leg.colour]
         self._vertices = vertices
+        self.alpha_s = float(params.get("alpha_s", 0.0) or 0.0)
+        self.strong_powers = self._strong_powers(params, width_scheme, mass_of) if self.alpha_s > 0 else {}
+        used = {id(j.vertex) for js in self.recursion.joins.values() for j in js}
+        #: True when some vertex of the amplitude couples by alpha_s (the amplitude runs with it)
+        self.strong = any(k in used for k in self.strong_powers)
         self._setup(seed)
+
+    def _strong_powers(self, params, width_scheme, mass_of) -> dict[int, float]:
+        """The power q of alpha_s in each vertex's couplings (c proportional to alpha_s^q), by id of
+        the vertex, for vertices with q > 0: read off by evaluating the couplings at 4 alpha_s."""
+        raised = self.model.numeric(dict(params, alpha_s=4.0 * self.alpha_s), width_scheme, mass_of, ckm_from(params))
+        out: dict[int, float] = {}
+        for v, w in zip(self._vertices, raised):
+            qs = {round(math.log(abs(b / a)) / math.log(4.0), 9) for a, b in zip(v.couplings, w.couplings) if a != 0}
+            if len(qs) != 1 or any(abs(b - a * 4.0 ** next(iter(qs))) > 1e-9 * abs(b)
+                                   for a, b in zip(v.couplings, w.couplings)):
+                raise ProcessRefused(f"the couplings of vertex {v.name!r} of the {self.model.name} model are not one "
+                                     "power of alpha_s, so they cannot run per event")
+            q = qs.pop()
+            if q != 0:
+                out[id(v)] = q
+        return out
 
     # --- configurations --------------------------------------------------------------------------
     def _setup(self, seed: int) -> None:
@@ -339,8 +360,20 @@ class TreeAmplitude:
 
         return rec.amplitude(states, moms, cache, key)
 
-    def squared(self, p: np.ndarray, rng: np.random.Generator | None = None) -> np.ndarray:
-        """Averaged sum |M|^2 (N,) at momenta p (N, n, 4); rng draws the sampled configurations."""
+    def squared(self, p: np.ndarray, rng: np.random.Generator | None = None,
+                alpha_s: np.ndarray | None = None) -> np.ndarray:
+        """Averaged sum |M|^2 (N,) at momenta p (N, n, 4); rng draws the sampled configurations.
+        `alpha_s` (N,), when given, is the strong coupling of each point (else the parameters')."""
+        rec = self.recursion
+        if alpha_s is not None and self.strong:
+            ratio = np.asarray(alpha_s, float) / self.alpha_s
+            rec.vertex_scale = {k: ratio ** q for k, q in self.strong_powers.items()}
+        try:
+            return self._squared(p, rng)
+        finally:
+            rec.vertex_scale = {}
+
+    def _squared(self, p: np.ndarray, rng: np.random.Generator | None) -> np.ndarray:
         n = p.shape[0]
         ext = self._externals(p)
         moms = self._moms(p)

@@ -70,8 +70,15 @@ def _sigma_dot(v):
     """The 2x2 blocks (v.sigma, v.sigmabar) of a four-vector v (4, ...) as (2, 2, ...) arrays,
     v.sigma = v^0 - v.vec(sigma), v.sigmabar = v^0 + v.vec(sigma)."""
     v0, v1, v2, v3 = v[0], v[1], v[2], v[3]
-    s = np.array([[v0 - v3, -(v1 - 1j * v2)], [-(v1 + 1j * v2), v0 + v3]])
-    sb = np.array([[v0 + v3, v1 - 1j * v2], [v1 + 1j * v2, v0 - v3]])
+    s = np.empty((2, 2) + np.shape(v0), complex)
+    sb = np.empty_like(s)
+    np.subtract(v0, v3, out=s[0, 0])
+    np.add(v0, v3, out=s[1, 1])
+    np.subtract(v1, 1j * v2, out=sb[0, 1])
+    np.add(v1, 1j * v2, out=sb[1, 0])
+    sb[0, 0], sb[1, 1] = s[1, 1], s[0, 0]
+    np.negative(sb[0, 1], out=s[0, 1])
+    np.negative(sb[1, 0], out=s[1, 0])
     return s, sb
 
 
@@ -196,6 +203,9 @@ class Recursion:
         self.masses = dict(masses)
         self.widths = dict(widths)
         self.fermions = frozenset(i for i, leg in enumerate(self.legs) if leg.kind in ("col", "row"))
+        #: per-point factors (N,) on the couplings of some vertices, by id of the vertex: a running
+        #: coupling (see `TreeAmplitude.squared`); empty when every coupling is a number
+        self.vertex_scale: dict[int, np.ndarray] = {}
         # vertices by the multiset of labels of their input legs
         self._by_inputs: dict[tuple[str, ...], list[tuple[NumericVertex, tuple[int, ...], int]]] = defaultdict(list)
         for v in vertices:
@@ -573,6 +583,10 @@ class Recursion:
                 if any(v is None for v in vals):
                     continue
                 term = self._vertex(j, vals, [momentum(p) for p in j.parts])
+                if self.vertex_scale:
+                    f = self.vertex_scale.get(id(j.vertex))
+                    if f is not None:
+                        term = term * f
                 term = term if j.sign > 0 else -term
                 total = term if total is None else total + term
             if total is None:
