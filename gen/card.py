@@ -53,12 +53,16 @@ SPEC: dict[str, dict[str, Key]] = {
         "incoming": Key(list, required=True, doc="two incoming particles (names or PDG ids), or two hadrons (p, pbar); the "
                         "first moves along +z; or one particle, which decays at rest (no [collider]; the integral is its partial width)"),
         "outgoing": Key(list, required=True, doc="two or three outgoing particles (names or PDG ids), two to six with "
-                        "a model of automatic amplitudes (standard, qed-tree, scalar-tree); with hadron beams one or two, "
-                        "and group names (jet, quark, antiquark, l-, l+, nu, nubar) stand for any of their members"),
+                        "a model of automatic amplitudes (standard, qed-tree, scalar-tree); with hadron beams one or two "
+                        "(two or three with automatic amplitudes), and group names (jet, quark, antiquark, l-, l+, nu, nubar) stand for any of their members"),
         "helicities": Key(str, "sum", doc="automatic amplitudes: sum over helicities at every point, or sample one "
                           "helicity configuration per point (cheaper per point, larger variance)", choices=("sum", "sample")),
         "colours": Key(str, "auto", doc="automatic amplitudes: exact colour sum, one sampled colour assignment per point, "
                        "or auto (the sum for few coloured particles, sampling for many)", choices=("auto", "sum", "sample")),
+        "decay_spins": Key(str, "auto", doc="the [decays]: correlated (production and decays as one amplitude, the "
+                           "decaying particles' helicities summed coherently: automatic amplitudes at fixed beams), "
+                           "isotropic (each decay flat in its rest frame, any model), or auto (correlated where it can be)",
+                           choices=("auto", "correlated", "isotropic")),
     },
     "collider": {
         "sqrt_s": Key(NUMBER, lo=0.0, hi=1e9, lo_open=True, unit="GeV", doc="head-on beams of equal energy sqrt_s/2 (laboratory = centre-of-mass frame)"),
@@ -265,6 +269,7 @@ class _Draft:
         self.shat_range = None
         self.parton_set = None
         self.steps: list[DecayStep] = []
+        self.decay_spins = "isotropic"
 
     def error(self, key: str, message: str) -> CardError:
         return CardError(self.source, key, message)
@@ -861,6 +866,29 @@ def _decay_width(d: _Draft, name: str, ew: dict) -> float:
     return float(sp.width)
 
 
+@_rule("process.decay_spins applies to cards with [decays]; correlated needs a model of automatic amplitudes and "
+       "fixed beams, and then a decay's window has no effect (the resonances are on their mass shell).")
+def _decay_spins(d: _Draft) -> None:
+    mode = d.sections["process"]["decay_spins"]
+    given = "decay_spins" in d.doc.get("process", {})
+    if given and not d.steps:
+        raise d.error("process.decay_spins", "applies to the decays of [decays.<particle>], and the card has none")
+    can = bool(d.model.automatic) and not d.hadrons and bool(d.steps)
+    if mode == "correlated" and not can:
+        why = (f"the {d.model.name} model's processes are hand-coded, with no amplitude to join the decays to; "
+               "use process.model = \"standard\"") if not d.model.automatic else \
+            "with hadron beams the decays are isotropic for now"
+        raise d.error("process.decay_spins", f"correlated decays are not available here: {why}; or set "
+                      "process.decay_spins = \"isotropic\"")
+    d.decay_spins = "correlated" if mode == "correlated" or (mode == "auto" and can) else "isotropic"
+    if d.decay_spins == "correlated":
+        for name, table in d.doc.get("decays", {}).items():
+            if isinstance(table, dict) and "window" in table:
+                raise d.error(f"decays.{name}.window", "has no effect with correlated decays: the resonances are on "
+                              "their mass shell; leave it out, or set process.decay_spins = \"isotropic\" for "
+                              "Breit-Wigner masses in the window")
+
+
 @_rule("Every entry of [parameters.masses] and [parameters.widths] has an effect: a mass belongs to a particle of "
        "the process or its decays whose mass the process uses (partons and leptons are massless in hadron "
        "collisions), a width to a particle the card decays.")
@@ -960,7 +988,8 @@ def parse_doc(doc: dict, source: str, text: str) -> RunConfig:
         collider=sec["collider"], parameters=d.given, masses=d.mass_overrides, widths=d.width_overrides,
         cuts=sec["cuts"], partons=sec["partons"], scales=sec["scales"], decays=d.decays,
         integration=sec["integration"], sampling=sec["sampling"], output=sec["output"], resolved=resolved,
-        process_options={k: sec["process"][k] for k in ("helicities", "colours")} if d.model.automatic else {})
+        process_options=dict({k: sec["process"][k] for k in ("helicities", "colours")} if d.model.automatic else {},
+                             decay_spins=d.decay_spins))
 
 
 def load_card(path: str | Path) -> RunConfig:

@@ -23,6 +23,10 @@ def build_process(cfg: RunConfig, checks: bool = True) -> Process:
         from .tree_hadron import TreeHadronProcess
 
         proc: Process = TreeHadronProcess(cfg)
+    elif MODELS[cfg.model].automatic and cfg.process_options.get("decay_spins") == "correlated":
+        from .spin_decays import CorrelatedDecays
+
+        proc = CorrelatedDecays(cfg)
     elif MODELS[cfg.model].automatic:
         from .tree import TreeProcess
 
@@ -39,7 +43,7 @@ def build_process(cfg: RunConfig, checks: bool = True) -> Process:
         from .fixed_beams import ManyBody, TwoToTwo
 
         proc = ManyBody(cfg) if len(cfg.outgoing) > 2 else TwoToTwo(cfg)
-    if cfg.resolved.decays:
+    if cfg.resolved.decays and cfg.process_options.get("decay_spins") != "correlated":
         from .decays import WithDecays
 
         proc = WithDecays(proc)

@@ -109,7 +109,8 @@ class TreeAmplitude:
 
     def __init__(self, model: str, incoming: Sequence[str], outgoing: Sequence[str], params: Mapping[str, object],
                  mass_of: Callable[[str], float], width_of: Callable[[str], float], width_scheme: str = "fixed",
-                 helicities: str = "sum", colours: str = "auto", seed: int = 12345):
+                 helicities: str = "sum", colours: str = "auto", seed: int = 12345,
+                 resonances: Sequence[tuple[Sequence[str], str]] = ()):
         self.model = load(model)
         self.incoming, self.outgoing = tuple(incoming), tuple(outgoing)
         self.legs = tuple([Leg(n, True, mass_of(n)) for n in incoming] + [Leg(n, False, mass_of(n)) for n in outgoing])
@@ -125,9 +126,14 @@ class TreeAmplitude:
         widths = {n: width_of(n) for n in names}
         self.complex_mass = width_scheme == "complex_mass"
         vertices = self.model.numeric(params, width_scheme, mass_of, ckm_from(params))
-        self.recursion = Recursion(self.legs, vertices, masses, widths, self.complex_mass)
+        n_in = len(self.incoming)
+        #: resonances the diagrams must go through, as (mask over the legs, particle)
+        self.resonances = tuple((sum(1 << (n_in + k) for k in outs), parent) for outs, parent in resonances)
+        self.recursion = Recursion(self.legs, vertices, masses, widths, self.complex_mass,
+                                   resonances=self.resonances)
         if not self.recursion.exists:
-            raise ProcessRefused(f"the {self.model.name} model has no tree diagram for this process")
+            raise ProcessRefused(f"the {self.model.name} model has no tree diagram for this process"
+                                 + (" through the resonances asked for" if resonances else ""))
         self.helicity_mode, self.colour_mode = helicities, colours
         self.average = 1.0
         for leg in self.legs[:len(self.incoming)]:
@@ -488,7 +494,8 @@ class FlowChooser:
                 self.flows.append(perm)
         d = max(len(self.ups), 1)
         self.recursion = Recursion(legs, amp._vertices, amp.recursion.masses, amp.recursion.widths,
-                                   amp.complex_mass, dim=d, leading=True) if self.flows else None
+                                   amp.complex_mass, dim=d, leading=True,
+                                   resonances=amp.resonances) if self.flows else None
         self.tags = np.zeros((max(len(self.flows), 1), len(legs), 2), np.int32)
         self.states = []
         for f, perm in enumerate(self.flows):

@@ -196,9 +196,12 @@ class Recursion:
     """
 
     def __init__(self, legs: Sequence[Leg], vertices: Sequence[NumericVertex], masses: Mapping[str, float],
-                 widths: Mapping[str, float], complex_mass: bool = False, dim: int = 3, leading: bool = False):
+                 widths: Mapping[str, float], complex_mass: bool = False, dim: int = 3, leading: bool = False,
+                 resonances: Sequence[tuple[int, str]] = ()):
         self.legs = tuple(legs)
         self.n = len(self.legs)
+        self.resonances = tuple(resonances)
+        self._cuts = [self._cut_of(mask, label) for mask, label in self.resonances]
         self.dim, self.leading, self.complex_mass = dim, leading, complex_mass
         self.masses = dict(masses)
         self.widths = dict(widths)
@@ -241,6 +244,8 @@ class Recursion:
                         # assign the parts to the input slots by label
                         slots = self._assign(v, ins, combo)
                         out_label = antiparticle(v.legs[out])
+                        if self._cuts and not self._resonant(mask, out_label, parts):
+                            continue
                         sign = self._sign(parts, combo)
                         joins[(mask, out_label)].append(_Join(parts, combo, v, slots, out, sign))
                         found.add(out_label)
@@ -261,6 +266,32 @@ class Recursion:
         self.order = sorted(self.joins, key=lambda k: bin(k[0]).count("1"))
         self.full, self.target = full, target
         self.exists = bool(need)
+
+    def _cut_of(self, mask: int, label: str) -> tuple[int, str]:
+        """A resonance (the legs its decay makes, as a mask over all legs; the decaying particle as
+        it comes out) as the current that must carry it: over those legs with the particle's
+        antiparticle as label (the line enters the rest of the diagram as such), or, when they
+        include the last leg, over all the other legs with the particle itself."""
+        last = 1 << (self.n - 1)
+        if mask & last:
+            return ((1 << self.n) - 1) ^ mask, label
+        return mask, antiparticle(label)
+
+    def _resonant(self, mask: int, label: str, parts) -> bool:
+        """Whether a join of `parts` into the current (mask, label) belongs to a diagram in which every
+        resonance is one line: its legs on one side of it and nothing else. The current's legs then
+        lie inside a resonance's, outside them, or around them with one part holding them all."""
+        for r, lab in self._cuts:
+            common = mask & r
+            if common == 0 or common == mask and mask != r:
+                continue
+            if mask == r:
+                if label != lab:
+                    return False
+                continue
+            if common != r or not any(p & r == r for p in parts):
+                return False
+        return True
 
     @staticmethod
     def _partitions(mask: int):
