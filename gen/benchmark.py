@@ -16,6 +16,11 @@ and prints:
 `--startup` instead times the start of commands (`gen --version`, `gen --help`, `gen processes`)
 in fresh processes beside a bare interpreter, and lists what their imports cost (`-X importtime`).
 
+`--tree N` instead times the automatic amplitudes (microseconds per point for 4 to 7 gluons, four
+fermions and more, summed over helicities and sampled), the recursion against the hand-coded
+library on the same 2 -> 2 processes, and the automatic amplitudes' demo cards end to end at N
+unweighted events.
+
 `--hadron N` instead runs dijets and Drell-Yan with the default parton-density set and prints
 events per second end to end, the share of the integrand's time spent in parton densities and the
 unweighting efficiency; `--pdf` measures density evaluations per second.
@@ -231,6 +236,87 @@ def _hadron(n: int, repeat: int) -> None:
         print(f"{label:<36} {n:>8} {med:>9.2f} s {n / med:>9.0f} {spent[0] / total:>10.0%} {eff:>10.1%}")
 
 
+#: the automatic amplitudes' processes timed by --tree: (label, model, incoming, outgoing, points)
+TREE_AMPLITUDES = [
+    ("g g -> g g", "standard", ["g", "g"], ["g", "g"], 2000),
+    ("g g -> g g g", "standard", ["g", "g"], ["g", "g", "g"], 1000),
+    ("g g -> g g g g", "standard", ["g", "g"], ["g", "g", "g", "g"], 200),
+    ("g g -> g g g g g", "standard", ["g", "g"], ["g", "g", "g", "g", "g"], 50),
+    ("e- e+ -> mu- nu_mubar u dbar", "standard", ["e-", "e+"], ["mu-", "nu_mubar", "u", "dbar"], 4000),
+    ("e- e+ -> u ubar g g", "standard", ["e-", "e+"], ["u", "ubar", "g", "g"], 2000),
+    ("e- e+ -> mu- mu+ b bbar", "standard", ["e-", "e+"], ["mu-", "mu+", "b", "bbar"], 4000),
+]
+
+#: the same 2 -> 2 process by the hand-coded library and by the recursion
+TREE_AGAINST_LIBRARY = [("e- e+ -> mu- mu+", "electroweak", ["e-", "e+"], ["mu-", "mu+"]),
+                        ("g g -> g g", "qcd", ["g", "g"], ["g", "g"]),
+                        ("u ubar -> t tbar", "qcd", ["u", "ubar"], ["t", "tbar"])]
+
+#: demo cards of the automatic amplitudes timed end to end by --tree
+TREE_CARDS = ["lep2-w-pairs-four-fermions", "z-pole-radiative-muons", "z-pole-four-partons",
+              "higgs-factory-zh-spin-correlated", "linear-collider-top-pairs", "pp-top-pairs-recursion"]
+
+
+def _tree(events: int, repeat: int) -> None:
+    """The automatic amplitudes: microseconds per point (median of `repeat`) summed over helicities
+    and with one configuration sampled per point, against the hand-coded library on the same 2 -> 2,
+    and the demo cards end to end (unweighted events per minute, efficiency)."""
+    import numpy as np
+
+    from gen.card import load_card
+    from gen.jobs.run import run
+    from gen.physics import tree
+    from gen.physics.matrix import MODELS, find_process
+    from gen.physics.kinematics import dot
+
+    def per_point(amp, p):
+        rng = np.random.default_rng(0)
+        times = []
+        for _ in range(repeat):
+            t0 = time.perf_counter()
+            amp.squared(p, rng)
+            times.append(time.perf_counter() - t0)
+        return statistics.median(times) / p.shape[0] * 1e6
+
+    print(f"{'amplitude':<32} {'points':>6} {'colour':>7} {'us/point, summed':>17} {'sampled helicity':>17}")
+    for label, model, incoming, outgoing, n in TREE_AMPLITUDES:
+        summed = tree.build(model, incoming, outgoing)
+        sampled = tree.build(model, incoming, outgoing, helicities="sample")
+        p = summed.probe_momenta(3, n)
+        print(f"{label:<32} {n:>6} {summed.colour_mode:>7} {per_point(summed, p):>17.1f} {per_point(sampled, p):>17.1f}")
+        sys.stdout.flush()
+    print(f"\n{'2 -> 2':<24} {'library us/point':>17} {'recursion us/point':>19} {'ratio':>6}")
+    for label, model, incoming, outgoing in TREE_AGAINST_LIBRARY:
+        amp = tree.build("standard", incoming, outgoing)
+        p = amp.probe_momenta(3, 20000)
+        spec = find_process(MODELS[model], tuple(incoming), tuple(outgoing)).spec
+        s, t, u = (dot(a, a) for a in (p[:, 0] + p[:, 1], p[:, 0] - p[:, 2], p[:, 0] - p[:, 3]))
+        par = dict(MODELS[model].resolve({}), alpha_s=0.118, m1=amp.legs[0].mass, m2=amp.legs[1].mass,
+                   m3=amp.legs[2].mass, m4=amp.legs[3].mass)
+        times = []
+        for _ in range(repeat):
+            t0 = time.perf_counter()
+            spec.matrix(s, t, u, par)
+            times.append(time.perf_counter() - t0)
+        lib = statistics.median(times) / p.shape[0] * 1e6
+        rec = per_point(amp, p)
+        print(f"{label:<24} {lib:>17.2f} {rec:>19.1f} {rec / lib:>6.0f}")
+    print(f"\n{'demo card':<36} {'events':>7} {'end-to-end':>11} {'events/min':>11} {'efficiency':>10}")
+    cards = Path(__file__).resolve().parent.parent / "cards"
+    for name in TREE_CARDS:
+        cfg = load_card(cards / f"{name}.toml").with_overrides(events=events)
+        times, eff = [], 0.0
+        with tempfile.TemporaryDirectory() as tmp:
+            for r in range(repeat):
+                t0 = time.perf_counter()
+                res = run(cfg, folder=Path(tmp) / f"run{r}")
+                times.append(time.perf_counter() - t0)
+                eff = res.unweighting.efficiency
+        med = statistics.median(times)
+        print(f"{name:<36} {events:>7} {med:>9.1f} s {events / med * 60:>11.0f} {eff:>10.1%}")
+        sys.stdout.flush()
+
+
 STARTUP_COMMANDS = {
     "python -c pass (bare interpreter)": ["-c", "pass"],
     "gen --version": ["-m", "gen.cli", "--version"],
@@ -310,6 +396,8 @@ def main(argv=None) -> int:
     ap.add_argument("--pdf", action="store_true", help="instead: parton-density evaluations per second")
     ap.add_argument("--hadron", type=int, metavar="N", help="instead: N unweighted dijet and Drell-Yan events at 13.6 TeV")
     ap.add_argument("--startup", action="store_true", help="instead: start-up time of commands")
+    ap.add_argument("--tree", type=int, metavar="N", help="instead: the automatic amplitudes per point, against the "
+                    "library, and their demo cards at N unweighted events")
     ap.add_argument("--allocator", choices=("auto", "tuned", "system", "both"), default="auto",
                     help="gen's choice (fixed mmap threshold from gen.memory.LARGE_RUN events), always fixed, "
                          "glibc's own dynamic one, or fixed and glibc's side by side")
@@ -319,6 +407,9 @@ def main(argv=None) -> int:
         return 0
     if args.hadron:
         _hadron(args.hadron, args.repeat)
+        return 0
+    if args.tree:
+        _tree(args.tree, args.repeat)
         return 0
     if args.pdf:
         _pdf()

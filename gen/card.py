@@ -541,9 +541,12 @@ def _infrared(d: _Draft, lines) -> None:
             raise d.error("cuts.pt_min", f"{d.label} is singular where {names[0]} goes along a beam (a massless line "
                           "exchanged with the beam particle); set cuts.pt_min (or theta_min_deg and theta_max_deg) on "
                           f"it, for example pt_min = 5")
-        if kind == "soft" and not (covered and (cuts["pt_min"] > 0.0 or cuts["energy_min"] > 0.0)):
+        # a pair-mass cut keeps a soft particle away too, when it pairs with a massless one
+        paired = cuts["pair_mass_min"] > 0.0 and sum(1 for n in outgoing if n in chosen and _mass(d, n) == 0.0) >= 2
+        if kind == "soft" and not (covered and (cuts["pt_min"] > 0.0 or cuts["energy_min"] > 0.0 or paired)):
             raise d.error("cuts.energy_min", f"{d.label} is singular where the {names[0]} becomes soft; set "
-                          "cuts.energy_min (or cuts.pt_min) on it, for example energy_min = 5")
+                          "cuts.energy_min (or cuts.pt_min, or cuts.pair_mass_min with a massless partner) on it, "
+                          "for example energy_min = 5")
 
 
 @_rule("cuts.particles names outgoing particles of the process (at least one); each minimum is below its maximum.")

@@ -37,13 +37,13 @@ def test_drell_yan_from_the_recursion_against_a_scipy_integral():
 
 @pytest.mark.slow
 def test_top_pairs_from_the_recursion_against_the_closed_forms():
-    """p p -> t tbar at mu = m_t from the standard model file against int dtau L(tau) sigma-hat with
-    the Glueck-Owens-Reya / Combridge partonic cross-sections (`test_hadron.heavy_partonic`).
-    The model file adds what the QCD formulas leave out: q qbar -> gamma*/Z -> t tbar and W exchange
-    in b bbar -> t tbar, which this card puts at +0.27% (measured against the hand-coded QCD
-    processes); allowed: 1%, far below what a wrong flux, symmetry or colour factor would make."""
+    """p p -> t tbar at mu = m_t from the standard model file, its electroweak couplings switched off
+    (alpha = 1e-6: no q qbar -> gamma*/Z -> t tbar, no W exchange in b bbar -> t tbar), against
+    int dtau L(tau) sigma-hat with the Glueck-Owens-Reya / Combridge partonic cross-sections
+    (`test_hadron.heavy_partonic`), within 5 sigma."""
     mt = 172.5
-    proc, xs = integrate(_pp(["t", "tbar"], f"[parameters.masses]\nt = {mt}\n[scales]\nrenormalization = {mt}\n"
+    proc, xs = integrate(_pp(["t", "tbar"], f"[parameters]\nscheme = \"thomson\"\nalpha = 1e-6\n"
+                             f"[parameters.masses]\nt = {mt}\n[scales]\nrenormalization = {mt}\n"
                              f"factorization = {mt}"), warmup=3, iterations=5, points=5000)
     a_s = float(pdf.load().alpha_s(mt)[0])
     pairs_q = [(q, -q) for q in QUARKS] + [(-q, q) for q in QUARKS]
@@ -54,7 +54,8 @@ def test_top_pairs_from_the_recursion_against_the_closed_forms():
         return tau * (qq * luminosity(tau, mt, pairs_q) + gg * luminosity(tau, mt, [(21, 21)]))
 
     ref = si.quad(dsig_dlogtau, math.log(4 * mt * mt / S), 0.0, epsrel=1e-6, limit=200)[0]
-    assert abs(xs.value / ref - 1.0) < 0.01 + 5 * xs.error / ref, (xs.value, xs.error, ref)
+    assert within(xs.value, xs.error, ref, k=5, rel_floor=1e-5), (xs.value, xs.error, ref)
+    assert xs.error < 0.003 * ref
 
 
 def test_alpha_s_runs_through_the_vertices():

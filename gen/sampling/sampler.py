@@ -190,8 +190,16 @@ class MapSampler:
         """Yield accepted points (chunks of x) until n_events are accepted, filling stats."""
         wmax = stats.max_weight
         while stats.accepted < n_events:
-            x, w = self.draw(rng, self.chunk)
-            hit = rng.random(self.chunk) * wmax < w
+            # as many points as the acceptance so far says are needed (with a margin), at most a
+            # chunk: a slow integrand asked for few events is not evaluated at a whole chunk
+            need = n_events - stats.accepted
+            if stats.trials:
+                size = int(1.3 * need * stats.trials / max(stats.accepted, 1)) + 100
+            else:
+                size = 2 * need  # a first look at the acceptance
+            size = min(self.chunk, max(size, 1000))
+            x, w = self.draw(rng, size)
+            hit = rng.random(size) * wmax < w
             idx = np.flatnonzero(hit)
             need = n_events - stats.accepted
             if idx.size > need:  # stop the book-keeping at the last event kept
