@@ -79,6 +79,7 @@ class EventData:
     x1: np.ndarray | None = None
     x2: np.ndarray | None = None
     mass: np.ndarray | None = None  # (N, n): resonance masses drawn per event
+    helicity: np.ndarray | None = None  # (N, n) float32 in units of hbar, NaN where not known
 
     @classmethod
     def concatenate(cls, parts: list["EventData"]) -> "EventData":

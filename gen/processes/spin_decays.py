@@ -167,7 +167,13 @@ class CorrelatedDecays(TreeProcess):
             if species(st.particle).colour != 1:
                 kid = next(k for k, p in zip(st.children, st.products) if species(p).colour == species(st.particle).colour)
                 colour[:, st.parent], anti[:, st.parent] = colour[:, kid], anti[:, kid]
-        return EventData(lab, colour=colour, anticolour=anti)
+        hel = None
+        if self.amplitude.helicity_mode == "sample":  # the intermediate particles' helicities are summed over
+            hel = np.full((n, len(self.names)), np.nan, np.float32)
+            h = self.amplitude.draw_helicities(full, rng)
+            hel[:, :2] = h[:, :2]
+            hel[:, self.leaves] = h[:, 2:]
+        return EventData(lab, colour=colour, anticolour=anti, helicity=hel)
 
     def particle_layout(self):
         return self._layout

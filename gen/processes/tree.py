@@ -160,12 +160,14 @@ class TreeProcess(FixedBeams):
         lab = full.copy()
         lab[:, 2:] = boost_z(full[:, 2:], self.y_cm)
         self._beams_into(lab)
+        hel = self.amplitude.draw_helicities(full, rng) if self.amplitude.helicity_mode == "sample" else None
         if len(self.flows.flows) < 2:
             tags = self.flow_tags_tree[0]
             return EventData(lab, colour=np.broadcast_to(tags[:, 0], (x.shape[0], tags.shape[0])).copy(),
-                             anticolour=np.broadcast_to(tags[:, 1], (x.shape[0], tags.shape[0])).copy())
+                             anticolour=np.broadcast_to(tags[:, 1], (x.shape[0], tags.shape[0])).copy(), helicity=hel)
         choice = self.flows.choose(full, rng)
-        return EventData(lab, colour=self.flow_tags_tree[choice, :, 0], anticolour=self.flow_tags_tree[choice, :, 1])
+        return EventData(lab, colour=self.flow_tags_tree[choice, :, 0], anticolour=self.flow_tags_tree[choice, :, 1],
+                         helicity=hel)
 
     def particle_layout(self):
         layout = super().particle_layout()

@@ -232,26 +232,33 @@ class TreeHadronProcess(HadronCollision):
         pdg = self.sub_pdg[sub]
         colour = np.zeros((n, npart), np.int32)
         anticolour = np.zeros((n, npart), np.int32)
+        sampled = any(amp.helicity_mode == "sample" for amp in self.amplitudes)
+        hel = np.full((n, npart), np.nan, np.float32) if sampled else None
         ev = self.sub_evaluation[sub]
+        order = [1, 0] + list(range(2, npart))
         for k in np.unique(ev):
             ai, swapped = self.evaluations[k]
             sel = np.flatnonzero(ev == k)
+            full = self._parton_momenta(d.shat[sel], d.cm[sel], swapped)  # in the amplitude's leg order
+            if sampled:
+                h = self.amplitudes[ai].draw_helicities(full, rng)
+                hel[sel] = h[:, order] if swapped else h
             chooser = self.flows[ai]
             if len(chooser.flows) < 2:
                 tags = np.broadcast_to(chooser.tags[0], (sel.size,) + chooser.tags[0].shape)
             else:
-                tags = chooser.tags[chooser.choose(self._parton_momenta(d.shat[sel], d.cm[sel], False), rng)]
+                tags = chooser.tags[chooser.choose(full, rng)]
             if swapped:  # the amplitude's first incoming parton is beam 2's
-                tags = tags[:, [1, 0] + list(range(2, npart))]
+                tags = tags[:, order]
             colour[sel], anticolour[sel] = tags[..., 0], tags[..., 1]
         for slots in self.same_slots:
             cols = 2 + np.array(slots)
             perm = cols[np.argsort(rng.random((n, len(slots))), axis=1)]
             rows = np.arange(n)[:, None]
-            for arr in (p, pdg, colour, anticolour):
+            for arr in (p, pdg, colour, anticolour) + (() if hel is None else (hel,)):
                 arr[:, cols] = arr[rows, perm]
         return EventData(p, pdg, colour, anticolour, sub.astype(np.int16), d.mu_r, d.mu_f,
-                         d.alpha_s if self.strong else None, d.x1, d.x2)
+                         d.alpha_s if self.strong else None, d.x1, d.x2, helicity=hel)
 
     def validation(self, claimed=None):
         raise CannotValidate("samples of the automatic amplitudes have no analytic reference in gen validate; the "

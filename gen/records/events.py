@@ -34,6 +34,19 @@ def _strings(items) -> pa.Array:
     return pa.Array.from_buffers(pa.string(), len(data), [None, pa.py_buffer(offsets), pa.py_buffer(b"".join(data))])
 
 
+def _helicities(values: np.ndarray | None, m: int) -> pa.Array:
+    """The helicity field: null where NaN (or everywhere, where no process gave helicities)."""
+    if values is None:
+        return pa.nulls(m, pa.float32())
+    h = np.ascontiguousarray(values.reshape(m), np.float32)
+    known = ~np.isnan(h)
+    if known.all():
+        return _numeric(h)
+    bitmap = np.packbits(known, bitorder="little")
+    return pa.Array.from_buffers(pa.float32(), m, [pa.py_buffer(bitmap), pa.py_buffer(np.nan_to_num(h))],
+                                 null_count=int(m - known.sum()))
+
+
 class RecordBuilder:
     """Record batches of one run: its particle layout, and the unit of its weights."""
 
@@ -69,7 +82,7 @@ class RecordBuilder:
             per_particle(None, lay.parent_first), per_particle(None, lay.parent_last),
             per_particle(data.colour, lay.colour), per_particle(data.anticolour, lay.anticolour),
             _numeric(comp[0]), _numeric(comp[1]), _numeric(comp[2]), _numeric(comp[3]),
-            per_particle(data.mass, lay.mass), pa.nulls(m, pa.float32()),
+            per_particle(data.mass, lay.mass), _helicities(data.helicity, m),
         ]
         particles = pa.StructArray.from_arrays(fields, fields=list(self._particle_type))
         offsets = _numeric(np.arange(0, m + 1, n, dtype=np.int32))

@@ -409,6 +409,27 @@ class TreeAmplitude:
                 total += self._colour_summed([self._amp_per_point(ext, moms, p, h, c) for c in self.colour_basis])
         return self.average * hel_factor * total
 
+    def draw_helicities(self, p: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+        """One helicity configuration per point (N, n, 4), drawn in proportion to its |M|^2 there
+        (summed over colours, or at one sampled colour assignment), as helicities in units of hbar
+        (N, n) float32: the labels of the external states, which are physical helicities (HELAS
+        conventions, `gen.physics.tree.external`)."""
+        from ..matrix.registry import draw_index
+
+        n = p.shape[0]
+        ext = self._externals(p)
+        moms = self._moms(p)
+        if self.colour_mode == "sample":
+            cols = self._draw_colours(rng, n)
+            w = [np.abs(self._amp_per_point(ext, moms, p, h, cols)) ** 2 for h in self.helicity_configs]
+        else:
+            cache: dict = {}
+            w = [self._colour_summed([self._amp(ext, moms, h, c, cache) for c in self.colour_basis])
+                 for h in self.helicity_configs]
+        k = draw_index(np.stack(w), rng.random(n))
+        unit = np.array([0.5 if species(leg.name).spin2 == 1 else 1.0 for leg in self.legs])
+        return (np.array(self.helicity_configs, float) * unit)[k].astype(np.float32)
+
     def _colour_summed(self, amps) -> np.ndarray:
         """sum over colour classes of w |M|^2 from the basis classes' amplitudes (K, N)."""
         a = np.stack(amps)
