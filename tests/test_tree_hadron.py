@@ -118,3 +118,60 @@ def test_three_outgoing_with_hadron_beams_integrate():
     ev = proc.events(x[w > 0][:50], np.random.default_rng(0))
     p = ev.momenta
     np.testing.assert_allclose(p[:, :2].sum(1), p[:, 2:].sum(1), atol=1e-6 * SQRT_S)
+
+
+# --- the batch, merge, Dask and validate routes ------------------------------------------------
+
+ROUTE_CARDS = {
+    "radiative muons": card("standard", ["e-", "e+"], ["mu-", "mu+", "gamma"], "sqrt_s = 91.1876",
+                            "[cuts]\npt_min = 5.0\npair_mass_min = 5.0"),
+    "spin-correlated ZH": card("standard", ["e-", "e+"], ["Z", "H"], "sqrt_s = 240.0",
+                               "[decays.Z]\ninto = [\"mu-\", \"mu+\"]\n[decays.H]\ninto = [\"b\", \"bbar\"]"),
+    "Drell-Yan at hadron beams": _pp(["e-", "e+"], "[cuts]\nmass_min = 66.0\nmass_max = 116.0"),
+}
+ROUTE_SAMPLING = ("[integration]\nwarmup_iterations = 3\niterations = 3\npoints_per_iteration = 3000\n"
+                  "[sampling]\nevents = 3000\nweighted_events = 600\nseed = 8\ncalibration_points = 3000\nchunk = 2000\n")
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("name", list(ROUTE_CARDS))
+def test_automatic_cards_go_through_batch_merge_dask_and_validate(name, tmp_path, capsys):
+    """Batch parts of a card of the automatic amplitudes merge into one sample whose weights sum to
+    the combined sigma, equal to the one-process run within errors; the Dask route writes the same
+    bytes; gen validate says in one line that it has no analytic reference (common practice, no
+    source: the batch contract of the README)."""
+    from pathlib import Path
+
+    import pyarrow.parquet as pq
+
+    import gen
+    from gen.cli import main
+    from gen.jobs.batch import merge
+    from gen.jobs.run import part_name
+    from gen.sampling.grid import make_grid
+
+    text = ROUTE_CARDS[name].replace("[sampling]\n", "") + ROUTE_SAMPLING
+    cfg = parse_card(text, "route.toml")
+    one = gen.run(cfg, folder=tmp_path / "one")
+    grid = make_grid(build_process(cfg), cfg)
+    grid_file = grid.save(tmp_path / "grid.json")
+    for j in range(2):
+        gen.run(cfg, folder=tmp_path / "parts", grid=grid, job=j, jobs=2)
+    _, combined = merge([tmp_path / "parts"], tmp_path / "merged")
+    table = gen.read_table(tmp_path / "merged" / "unweighted.parquet")
+    assert table.num_rows == 3000
+    assert table.column("weight").to_numpy().sum() == pytest.approx(combined["value"], rel=1e-12)
+    xs = one.cross_section
+    assert within(combined["value"], math.hypot(combined["error"], xs.error), xs.value, k=5)
+    pytest.importorskip("dask.distributed")
+    from gen.jobs.distributed import run_parts_on_dask
+
+    run_parts_on_dask(cfg, Path(grid_file), 2, tmp_path / "dask", workers=2)
+    for j in range(2):
+        a = pq.read_table(tmp_path / "parts" / part_name("unweighted", j))
+        b = pq.read_table(tmp_path / "dask" / part_name("unweighted", j))
+        assert a.equals(b)
+    capsys.readouterr()
+    assert main(["validate", str(tmp_path / "one"), "--no-plots"]) == 2
+    err = capsys.readouterr().err
+    assert "gen validate" in err and err.count("\n") == 1
