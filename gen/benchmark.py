@@ -300,7 +300,7 @@ def _tree(events: int, repeat: int) -> None:
             times.append(time.perf_counter() - t0)
         lib = statistics.median(times) / p.shape[0] * 1e6
         rec = per_point(amp, p)
-        print(f"{label:<24} {lib:>17.2f} {rec:>19.1f} {rec / lib:>6.0f}")
+        print(f"{label:<24} {lib:>17.3f} {rec:>19.1f} {rec / lib:>8.0f}")
     print(f"\n{'demo card':<36} {'events':>7} {'end-to-end':>11} {'events/min':>11} {'efficiency':>10}")
     cards = Path(__file__).resolve().parent.parent / "cards"
     for name in TREE_CARDS:

@@ -34,7 +34,7 @@ from ..physics.channels import MultiChannel, Topology
 from ..physics.constants import HBARC2_PB
 from ..physics.kinematics import boost_z, two_body_momentum
 from ..physics.particles import species
-from ..physics.tree.amplitudes import FlowChooser
+from ..physics.tree.amplitudes import flow_chooser
 from .base import particle_widths
 from .decays import DecayChain
 from .fixed_beams import FixedBeams
@@ -106,7 +106,7 @@ class CorrelatedDecays(TreeProcess):
         self.n_out = len(self.leaves)
         self.channels = (Channel(f"decay tree {self.phase.topologies[0].name} with on-shell resonances",
                                  self.phase.ndim),)
-        self.flows = FlowChooser(self.amplitude)
+        self.flows = flow_chooser(self.amplitude)
         self.flow_tags_tree = self.flows.tags
         self.norm = HBARC2_PB * self.spec.symmetry * self.flux * self.factor
         e1 = (self.s + self.masses[0] ** 2 - self.masses[1] ** 2) / (2.0 * self.sqrt_s)

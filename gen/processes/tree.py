@@ -20,7 +20,7 @@ from ..physics.channels import MultiChannel, Node, Topology
 from ..physics.constants import HBARC2_PB
 from ..physics.kinematics import BreitWignerMap, FlatMap, PowerMap, boost_z
 from ..physics.particles import antiparticle, species
-from ..physics.tree.amplitudes import FlowChooser
+from ..physics.tree.amplitudes import flow_chooser
 from .base import particle_widths
 from .fixed_beams import FixedBeams
 from .interface import CannotValidate, Channel, EventData
@@ -126,7 +126,7 @@ class TreeProcess(FixedBeams):
         names_ch = ", ".join(t.name for t in self.phase.topologies)
         self.channels = (Channel(f"{self.phase.k} decay tree{'s' if self.phase.k > 1 else ''}: {names_ch}",
                                  self.phase.ndim),)
-        self.flows = FlowChooser(self.amplitude)
+        self.flows = flow_chooser(self.amplitude)
         self.flow_tags_tree = self.flows.tags
         self.norm = HBARC2_PB * self.spec.symmetry * self.flux
         e1 = (self.s + self.masses[0] ** 2 - self.masses[1] ** 2) / (2.0 * self.sqrt_s)

@@ -30,7 +30,7 @@ from ..physics.constants import HBARC2_PB
 from ..physics.kinematics import BreitWignerMap, PowerMap, boost_z
 from ..physics.matrix.registry import draw_index
 from ..physics.particles import lookup, species
-from ..physics.tree.amplitudes import FlowChooser
+from ..physics.tree.amplitudes import flow_chooser
 from .hadron import HadronCollision
 from .interface import CannotValidate, Channel, EventData
 from .tree import propagator_structures, topologies
@@ -97,7 +97,7 @@ class TreeHadronProcess(HadronCollision):
         heavy = any(species(p).colour != 1 or p in MASSIVE_IN_HADRON_COLLISIONS
                     for sub in self.subprocesses for p in sub.outgoing)
         self.auto_scale = "half_ht" if heavy else "sqrt_shat"
-        self.flows = [FlowChooser(amp) for amp in self.amplitudes]
+        self.flows = [flow_chooser(amp) for amp in self.amplitudes]
         names = [p.name for p in cfg.outgoing]
         self.same_slots = [[k for k, n in enumerate(names) if n == name] for name in dict.fromkeys(names)]
         self.same_slots = [g for g in self.same_slots if len(g) > 1]

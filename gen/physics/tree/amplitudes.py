@@ -29,7 +29,7 @@ from ..particles import species
 from .model import ckm_from, load
 from .recursion import Leg, Recursion
 
-__all__ = ["TreeAmplitude", "ProcessRefused", "colour_lines"]
+__all__ = ["TreeAmplitude", "ProcessRefused", "colour_lines", "FlowChooser", "OrderedFlows", "flow_chooser"]
 
 
 class ProcessRefused(ValueError):
@@ -110,7 +110,7 @@ class TreeAmplitude:
     def __init__(self, model: str, incoming: Sequence[str], outgoing: Sequence[str], params: Mapping[str, object],
                  mass_of: Callable[[str], float], width_of: Callable[[str], float], width_scheme: str = "fixed",
                  helicities: str = "sum", colours: str = "auto", seed: int = 12345,
-                 resonances: Sequence[tuple[Sequence[str], str]] = ()):
+                 resonances: Sequence[tuple[Sequence[str], str]] = (), colour_ordered: bool = True):
         self.model = load(model)
         self.incoming, self.outgoing = tuple(incoming), tuple(outgoing)
         self.legs = tuple([Leg(n, True, mass_of(n)) for n in incoming] + [Leg(n, False, mass_of(n)) for n in outgoing])
@@ -139,12 +139,28 @@ class TreeAmplitude:
         for leg in self.legs[:len(self.incoming)]:
             self.average /= len(leg.helicities) * {1: 1, 3: 3, -3: 3, 8: 8}[leg.colour]
         self._vertices = vertices
+        self.ordered = self._gluon_path(vertices) if colour_ordered else None
         self.alpha_s = float(params.get("alpha_s", 0.0) or 0.0)
         self.strong_powers = self._strong_powers(params, width_scheme, mass_of) if self.alpha_s > 0 else {}
         used = {id(j.vertex) for js in self.recursion.joins.values() for j in js}
         #: True when some vertex of the amplitude couples by alpha_s (the amplitude runs with it)
         self.strong = any(k in used for k in self.strong_powers)
         self._setup(seed)
+
+    def _gluon_path(self, vertices):
+        """The colour-ordered evaluator (`gen.physics.tree.ordered`) for 4 to 7 gluons and nothing
+        else, when the model's gluon self-couplings are those of QCD (|c4| = |c3|^2: the coupling
+        g = |c3| is then read off them), else None; with colours = "sample" the general recursion."""
+        if self.colour_mode == "sample" or not 4 <= len(self.legs) <= 7 or any(leg.name != "g" for leg in self.legs):
+            return None
+        c3 = [v.couplings[0] for v in vertices if v.form == "vector-cubic" and set(v.legs) == {"g"}]
+        c4 = [v.couplings[0] for v in vertices if v.form == "vector-quartic" and set(v.legs) == {"g"}]
+        if len(c3) != 1 or len(c4) != 1 or abs(abs(c4[0]) - abs(c3[0]) ** 2) > 1e-12 * abs(c4[0]):
+            return None
+        from .ordered import GluonOrdered
+
+        self.gluon_coupling = abs(c3[0])
+        return GluonOrdered(len(self.legs))
 
     def _strong_powers(self, params, width_scheme, mass_of) -> dict[int, float]:
         """The power q of alpha_s in each vertex's couplings (c proportional to alpha_s^q), by id of
@@ -170,6 +186,9 @@ class TreeAmplitude:
         moms = self._moms(p)
         hels = list(itertools.product(*(leg.helicities for leg in legs)))
         self.colour_count = float(balanced_count(legs))
+        if self.ordered is not None:
+            self._setup_ordered(p, ext, moms, hels, seed)
+            return
         n_coloured = sum(1 for leg in legs if leg.colour != 1)
         classes = self._classes() if n_coloured <= 5 else None
         if self.colour_mode == "auto":
@@ -198,6 +217,33 @@ class TreeAmplitude:
             self._colour_basis(seed)
         else:
             self.colour_classes = []
+
+    def _setup_ordered(self, p, ext, moms, hels, seed: int) -> None:
+        """Helicity configurations of the colour-ordered path (those not vanishing at the probe
+        points) and its reduced set of orderings; the colour sum is exact."""
+        size = np.array([float(self.ordered.colour_summed(self._ordered_amps(ext, moms, h)).sum()) for h in hels])
+        self.helicity_configs = [h for h, v in zip(hels, size) if v > 1e-24 * size.max()] if size.any() else hels
+        from .ordered import GluonOrdered
+
+        q = self.probe_momenta(seed + 1, 12)
+        ext_q, moms_q = self._externals(q), self._moms(q)
+        samples = [([ext_q[(i, h[i])] for i in range(len(self.legs))], moms_q) for h in self.helicity_configs[:24]]
+        self.ordered = GluonOrdered.reduced(len(self.legs), samples)
+        self.colour_mode = "sum"
+        self.colour_classes = []
+        self.colour_basis = []
+
+    def _ordered_amps(self, ext, moms, hels):
+        """Colour-ordered amplitudes (K, N) of one helicity configuration (per point where hels
+        holds arrays)."""
+        states = []
+        for i, leg in enumerate(self.legs):
+            h = hels[i]
+            if np.ndim(h) == 0:
+                states.append(ext[(i, int(h))])
+            else:
+                states.append(sum(np.where((h == k)[None], ext[(i, k)], 0.0) for k in leg.helicities))
+        return self.ordered.amplitudes(states, moms)
 
     def _colour_basis(self, seed: int) -> None:
         """Find a few colour classes whose amplitudes give every other class's by a fixed linear map
@@ -371,6 +417,9 @@ class TreeAmplitude:
         """Averaged sum |M|^2 (N,) at momenta p (N, n, 4); rng draws the sampled configurations.
         `alpha_s` (N,), when given, is the strong coupling of each point (else the parameters')."""
         rec = self.recursion
+        if self.ordered is not None:
+            g2 = self.gluon_coupling ** 2 if alpha_s is None else 4.0 * math.pi * np.asarray(alpha_s, float)
+            return self._ordered_squared(p, rng) * g2 ** (len(self.legs) - 2)
         if alpha_s is not None and self.strong:
             ratio = np.asarray(alpha_s, float) / self.alpha_s
             rec.vertex_scale = {k: ratio ** q for k, q in self.strong_powers.items()}
@@ -378,6 +427,23 @@ class TreeAmplitude:
             return self._squared(p, rng)
         finally:
             rec.vertex_scale = {}
+
+    def _ordered_squared(self, p: np.ndarray, rng: np.random.Generator | None) -> np.ndarray:
+        """Averaged sum |M|^2 / g^(2(n-2)) by the colour-ordered path: over the helicity
+        configurations, or one drawn per point."""
+        ext = self._externals(p)
+        moms = self._moms(p)
+        hels = self.helicity_configs
+        if self.helicity_mode == "sample" and len(hels) > 1:
+            rng = rng or np.random.default_rng()
+            hi = rng.integers(len(hels), size=p.shape[0])
+            table = np.array(hels)
+            per_leg = tuple(table[hi, i] for i in range(len(self.legs)))
+            return self.average * len(hels) * self.ordered.colour_summed(self._ordered_amps(ext, moms, per_leg))
+        total = np.zeros(p.shape[0])
+        for h in hels:
+            total += self.ordered.colour_summed(self._ordered_amps(ext, moms, h))
+        return self.average * total
 
     def _squared(self, p: np.ndarray, rng: np.random.Generator | None) -> np.ndarray:
         n = p.shape[0]
@@ -419,7 +485,9 @@ class TreeAmplitude:
         n = p.shape[0]
         ext = self._externals(p)
         moms = self._moms(p)
-        if self.colour_mode == "sample":
+        if self.ordered is not None:
+            w = [self.ordered.colour_summed(self._ordered_amps(ext, moms, h)) for h in self.helicity_configs]
+        elif self.colour_mode == "sample":
             cols = self._draw_colours(rng, n)
             w = [np.abs(self._amp_per_point(ext, moms, p, h, cols)) ** 2 for h in self.helicity_configs]
         else:
@@ -575,3 +643,34 @@ class FlowChooser:
         from ..matrix.registry import draw_index
 
         return draw_index(weights, rng.random(n))
+
+
+class OrderedFlows:
+    """Leading-colour flows of a gluon amplitude on the colour-ordered path: one per ordering (a
+    ring of colour lines through the gluons in that order), drawn in proportion to sum_h |A_sigma|^2
+    at the event (the same choice as `FlowChooser`, whose flow amplitudes these are)."""
+
+    def __init__(self, amp: TreeAmplitude):
+        self.amp = amp
+        n = len(amp.legs)
+        rings = [tuple(o) + (n - 1,) for o in amp.ordered.trace_orderings]
+        self.flows = rings
+        self.tags = np.zeros((len(rings), n, 2), np.int32)
+        for f, ring in enumerate(rings):
+            for k in range(n):  # line k + 1 runs from gluon ring[k] (second index) to ring[k + 1] (first)
+                a, b = amp.legs[ring[k]], amp.legs[ring[(k + 1) % n]]
+                self.tags[f, ring[k], FlowChooser._slot(a, 1)] = k + 1
+                self.tags[f, ring[(k + 1) % n], FlowChooser._slot(b, 0)] = k + 1
+
+    def choose(self, p: np.ndarray, rng: np.random.Generator) -> np.ndarray:
+        from ..matrix.registry import draw_index
+
+        amp = self.amp
+        ext, moms = amp._externals(p), amp._moms(p)
+        w = sum(np.abs(amp.ordered.trace_amplitudes(amp._ordered_amps(ext, moms, h))) ** 2 for h in amp.helicity_configs)
+        return draw_index(w, rng.random(p.shape[0]))
+
+
+def flow_chooser(amp: TreeAmplitude):
+    """The flow choice of an amplitude: `OrderedFlows` on the colour-ordered path, else `FlowChooser`."""
+    return OrderedFlows(amp) if amp.ordered is not None else FlowChooser(amp)
