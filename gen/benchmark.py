@@ -192,11 +192,25 @@ HADRON_CARDS = {
 }
 
 
+def _median_run(cfg, repeat: int) -> tuple[float, float]:
+    """The median wall time (s) of `repeat` runs of a card into a temporary folder, and the
+    unweighting efficiency of the last."""
+    from gen.jobs.run import run
+
+    times, eff = [], 0.0
+    with tempfile.TemporaryDirectory() as tmp:
+        for r in range(repeat):
+            t0 = time.perf_counter()
+            res = run(cfg, folder=Path(tmp) / f"run{r}")
+            times.append(time.perf_counter() - t0)
+            eff = res.unweighting.efficiency
+    return statistics.median(times), eff
+
+
 def _hadron(n: int, repeat: int) -> None:
     """Hadron-collider runs with the default set: end-to-end events per second, the share of the
     integrand's time spent in parton-density evaluation, the unweighting efficiency."""
     from gen.card import parse_card
-    from gen.jobs.run import run
     from gen.physics import pdf as gpdf
     from gen.processes import build_process
 
@@ -204,13 +218,7 @@ def _hadron(n: int, repeat: int) -> None:
     for label, (model, outgoing, cuts) in HADRON_CARDS.items():
         text = HADRON_CARD.format(model=model, outgoing=outgoing, cuts=cuts, n=n)
         cfg = parse_card(text, "benchmark.toml")
-        times, eff = [], 0.0
-        with tempfile.TemporaryDirectory() as tmp:
-            for r in range(repeat):
-                t0 = time.perf_counter()
-                res = run(cfg, folder=Path(tmp) / f"run{r}")
-                times.append(time.perf_counter() - t0)
-                eff = res.unweighting.efficiency
+        med, eff = _median_run(cfg, repeat)
         # share of the integrand's time in the densities: time both on the same points
         import numpy as np
 
@@ -232,7 +240,6 @@ def _hadron(n: int, repeat: int) -> None:
             total = time.perf_counter() - t0
         finally:
             gpdf.PdfSet.xfx_many = plain
-        med = statistics.median(times)
         print(f"{label:<36} {n:>8} {med:>9.2f} s {n / med:>9.0f} {spent[0] / total:>10.0%} {eff:>10.1%}")
 
 
@@ -264,7 +271,6 @@ def _tree(events: int, repeat: int) -> None:
     import numpy as np
 
     from gen.card import load_card
-    from gen.jobs.run import run
     from gen.physics import tree
     from gen.physics.matrix import MODELS, find_process
     from gen.physics.kinematics import dot
@@ -304,15 +310,7 @@ def _tree(events: int, repeat: int) -> None:
     print(f"\n{'demo card':<36} {'events':>7} {'end-to-end':>11} {'events/min':>11} {'efficiency':>10}")
     cards = Path(__file__).resolve().parent.parent / "cards"
     for name in TREE_CARDS:
-        cfg = load_card(cards / f"{name}.toml").with_overrides(events=events)
-        times, eff = [], 0.0
-        with tempfile.TemporaryDirectory() as tmp:
-            for r in range(repeat):
-                t0 = time.perf_counter()
-                res = run(cfg, folder=Path(tmp) / f"run{r}")
-                times.append(time.perf_counter() - t0)
-                eff = res.unweighting.efficiency
-        med = statistics.median(times)
+        med, eff = _median_run(load_card(cards / f"{name}.toml").with_overrides(events=events), repeat)
         print(f"{name:<36} {events:>7} {med:>9.1f} s {events / med * 60:>11.0f} {eff:>10.1%}")
         sys.stdout.flush()
 

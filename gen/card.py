@@ -18,7 +18,6 @@ from __future__ import annotations
 
 import math
 import tomllib
-from collections import Counter
 from collections.abc import Callable
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -28,7 +27,6 @@ from .errors import CardError, close_matches
 from .keys import NUMBER, Key, type_name
 from .physics import pdf as _pdf
 from .physics import widths as _widths
-from .physics.kinematics import two_body_momentum
 from .physics.matrix import MODELS, Ordering, ProcessSpec, Subprocess, find_process, find_subprocesses
 from .physics.particles import HADRON_PARTONS, Species, lookup, species
 

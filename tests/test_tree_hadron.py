@@ -12,11 +12,11 @@ import scipy.integrate as si
 
 from gen.card import parse_card
 from gen.errors import CardError
-from gen.physics import pdf, tree
+from gen.physics import tree
 from gen.processes import build_process
 
 from conftest import card, integrate, within
-from test_hadron import QUARKS, S, SQRT_S, dy_dsigma_dm, heavy_partonic, luminosity
+from test_hadron import SQRT_S, dy_dsigma_dm, top_pair_sigma
 
 
 def _pp(outgoing, extra="", sampling=""):
@@ -45,15 +45,7 @@ def test_top_pairs_from_the_recursion_against_the_closed_forms():
     proc, xs = integrate(_pp(["t", "tbar"], f"[parameters]\nscheme = \"thomson\"\nalpha = 1e-6\n"
                              f"[parameters.masses]\nt = {mt}\n[scales]\nrenormalization = {mt}\n"
                              f"factorization = {mt}"), warmup=3, iterations=5, points=5000)
-    a_s = float(pdf.load().alpha_s(mt)[0])
-    pairs_q = [(q, -q) for q in QUARKS] + [(-q, q) for q in QUARKS]
-
-    def dsig_dlogtau(lt):
-        tau = math.exp(lt)
-        qq, gg = heavy_partonic(tau * S, mt, a_s)
-        return tau * (qq * luminosity(tau, mt, pairs_q) + gg * luminosity(tau, mt, [(21, 21)]))
-
-    ref = si.quad(dsig_dlogtau, math.log(4 * mt * mt / S), 0.0, epsrel=1e-6, limit=200)[0]
+    ref = top_pair_sigma(mt)
     assert within(xs.value, xs.error, ref, k=5, rel_floor=1e-5), (xs.value, xs.error, ref)
     assert xs.error < 0.003 * ref
 
@@ -129,8 +121,17 @@ ROUTE_CARDS = {
                                "[decays.Z]\ninto = [\"mu-\", \"mu+\"]\n[decays.H]\ninto = [\"b\", \"bbar\"]"),
     "Drell-Yan at hadron beams": _pp(["e-", "e+"], "[cuts]\nmass_min = 66.0\nmass_max = 116.0"),
 }
-ROUTE_SAMPLING = ("[integration]\nwarmup_iterations = 3\niterations = 3\npoints_per_iteration = 3000\n"
-                  "[sampling]\nevents = 3000\nweighted_events = 600\nseed = 8\ncalibration_points = 3000\nchunk = 2000\n")
+ROUTE_SAMPLING = """[integration]
+warmup_iterations = 3
+iterations = 3
+points_per_iteration = 3000
+[sampling]
+events = 3000
+weighted_events = 600
+seed = 8
+calibration_points = 3000
+chunk = 2000
+"""
 
 
 @pytest.mark.slow

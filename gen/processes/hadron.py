@@ -234,19 +234,21 @@ class HadronCollision(Process):
         # from the parton frame to the laboratory: rapidity y_lab = y + y_beams = ln(x1/x2)/2 + y_beams
         return boost_z(out, 0.5 * np.log(x1 / x2) + self.y_beams)
 
-    def _scale(self, choice, shat, sin):
-        """A scale (GeV) per point: fixed, or dynamic (floored at 1 GeV, where pt -> 0 would leave none)."""
+    def _scale(self, choice, shat, kin):
+        """A scale (GeV) per point: fixed, or dynamic from the points' kinematics `kin` (floored at
+        1 GeV, where pt -> 0 would leave none)."""
         f = self.cfg.scales["factor"]
         if not isinstance(choice, str):
             return np.full(shat.shape, float(choice) * f)
         if choice == "auto":
             choice = self.auto_scale
-        if choice == "sqrt_shat":
-            mu = np.sqrt(shat)
-        else:
-            pt = two_body_momentum(np.sqrt(shat), *self.m_out) * sin
-            mu = pt if choice == "pt" else 0.5 * sum(np.sqrt(m * m + pt * pt) for m in self.m_out)  # half_ht
+        mu = np.sqrt(shat) if choice == "sqrt_shat" else self._dynamic_scale(choice, shat, kin)
         return np.maximum(mu * f, 1.0)
+
+    def _dynamic_scale(self, choice, shat, sin):
+        """pt or half_ht (GeV) per point of a 2 -> 2, from sin theta*."""
+        pt = two_body_momentum(np.sqrt(shat), *self.m_out) * sin
+        return pt if choice == "pt" else 0.5 * sum(np.sqrt(m * m + pt * pt) for m in self.m_out)
 
     def _point_terms(self, x) -> _PointTerms:
         x1, x2, shat, c, omc, opc, jac = self._parton_kinematics(x)

@@ -126,22 +126,11 @@ class CorrelatedDecays(TreeProcess):
         gamma = me * two_body_momentum(st.mass, m1, m2) / (8.0 * math.pi * st.mass**2)
         return gamma / 2.0 if st.products[0] == st.products[1] else gamma
 
-    def _production(self, full):
-        """The production's outgoing momenta (N, n_prod - 2, 4): decayed particles as the sums of their
-        products, from the amplitude's momenta `full` (N, 2 + leaves, 4)."""
+    def _cut_momenta(self, full):
+        """The production's outgoing momenta (N, n_prod - 2, 4), which the cuts see: decayed particles
+        as the sums of their products, from the amplitude's momenta `full` (N, 2 + leaves, 4)."""
         pos = {i: 2 + k for k, i in enumerate(self.leaves)}
         return np.stack([full[:, [pos[j] for j in self.below[i]]].sum(axis=1) for i in range(2, self._n_prod)], axis=1)
-
-    def weights(self, x):
-        full, w_ps = self._points(x)
-        live = w_ps > 0
-        if self.cuts.active:
-            live &= self.cuts.mask(boost_z(self._production(full), self.y_cm))
-        w = np.zeros(x.shape[0])
-        if live.any():
-            rng = np.random.default_rng(np.frombuffer(np.ascontiguousarray(x[:1]).tobytes(), np.uint32))
-            w[live] = self.norm * self.amplitude.squared(full[live], rng) * w_ps[live]
-        return w
 
     def events(self, x, rng: np.random.Generator) -> EventData:
         full, _ = self._points(x)

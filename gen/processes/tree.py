@@ -21,7 +21,6 @@ from ..physics.constants import HBARC2_PB
 from ..physics.kinematics import BreitWignerMap, FlatMap, PowerMap, boost_z
 from ..physics.particles import antiparticle, species
 from ..physics.tree.amplitudes import flow_chooser
-from .base import particle_widths
 from .fixed_beams import FixedBeams
 from .interface import CannotValidate, Channel, EventData
 
@@ -108,7 +107,6 @@ class TreeProcess(FixedBeams):
         names = [p.name for p in self.species]
         res = cfg.resolved
         run_masses = dict(zip(names, res.masses))
-        run_widths = particle_widths(cfg, names)
         opts = {"helicities": cfg.process_options.get("helicities", "sum"),
                 "colours": cfg.process_options.get("colours", "auto")}
         card_masses = {species(n).name: m for n, m in run_masses.items()}
@@ -146,7 +144,7 @@ class TreeProcess(FixedBeams):
         full, w_ps = self._points(x)
         live = w_ps > 0
         if self.cuts.active:
-            live &= self.cuts.mask(boost_z(full[:, 2:], self.y_cm))
+            live &= self.cuts.mask(boost_z(self._cut_momenta(full), self.y_cm))
         w = np.zeros(x.shape[0])
         if live.any():
             # sampled helicities or colours draw from a stream fixed by the points, so that a point's
@@ -154,6 +152,10 @@ class TreeProcess(FixedBeams):
             rng = np.random.default_rng(np.frombuffer(np.ascontiguousarray(x[:1]).tobytes(), np.uint32))
             w[live] = self.norm * self.amplitude.squared(full[live], rng) * w_ps[live]
         return w
+
+    def _cut_momenta(self, full):
+        """The centre-of-mass momenta (N, n, 4) the cuts see: the outgoing particles."""
+        return full[:, 2:]
 
     def events(self, x, rng: np.random.Generator) -> EventData:
         full, _ = self._points(x)

@@ -150,21 +150,13 @@ class TreeHadronProcess(HadronCollision):
         return {label for mask, label in rec.joins if mask == 0b11 or mask == ((1 << rec.n) - 1) ^ 0b11}
 
     # --- kinematics --------------------------------------------------------------------------
-    def _scale_tree(self, choice, shat, cm) -> np.ndarray:
-        f = self.cfg.scales["factor"]
-        if not isinstance(choice, str):
-            return np.full(shat.shape, float(choice) * f)
-        if choice == "auto":
-            choice = self.auto_scale
-        if choice == "sqrt_shat":
-            mu = np.sqrt(shat)
-        else:
-            pt2 = cm[..., 1] ** 2 + cm[..., 2] ** 2
-            if choice == "pt":
-                mu = np.sqrt(pt2[:, 0])
-            else:  # half_ht
-                mu = 0.5 * np.sqrt(pt2 + np.asarray(self.m_out) ** 2).sum(axis=1)
-        return np.maximum(mu * f, 1.0)
+    def _dynamic_scale(self, choice, shat, cm):
+        """pt (of the card's first outgoing particle) or half_ht (GeV) per point, from the
+        parton-frame momenta cm (N, n_out, 4)."""
+        pt2 = cm[..., 1] ** 2 + cm[..., 2] ** 2
+        if choice == "pt":
+            return np.sqrt(pt2[:, 0])
+        return 0.5 * np.sqrt(pt2 + np.asarray(self.m_out) ** 2).sum(axis=1)
 
     def _momenta(self, x):
         """(x1, x2, s-hat, parton-frame and laboratory outgoing momenta, weight of the variables)."""
@@ -195,8 +187,8 @@ class TreeHadronProcess(HadronCollision):
         live = norm > 0
         if self.cuts.active:
             live &= self.cuts.mask(lab)
-        mu_r = self._scale_tree(self.cfg.scales["renormalization"], shat, cm)
-        mu_f = self._scale_tree(self.cfg.scales["factorization"], shat, cm)
+        mu_r = self._scale(self.cfg.scales["renormalization"], shat, cm)
+        mu_f = self._scale(self.cfg.scales["factorization"], shat, cm)
         a_s = self.alpha_s(mu_r)
         f1 = self.pdf.xfx_many(self.pids1, x1, mu_f) / x1
         f2 = self.pdf.xfx_many(self.pids2, x2, mu_f) / x2
