@@ -14,9 +14,11 @@ __all__ = ["build_process", "Process", "Channel", "Measure", "EventData", "Parti
 def build_process(cfg: RunConfig, checks: bool = True) -> Process:
     """The process of a validated card (raises CardError where the phase space cannot be built, and
     IntegrandError where the integrand cannot be sampled): a `TwoToTwo` or `ManyBody` at fixed beam
-    energies, a `DecayAtRest`, a `HadronCollision`, the automatic amplitudes' `TreeProcess` or `TreeHadronProcess`, wrapped in `WithDecays` when the card decays
-    particles. `checks=False` leaves out the probe of the integrand and the check that every model
-    parameter the card sets has an effect (`gen.processes.guard`)."""
+    energies, a `DecayAtRest`, a `HadronCollision`, or the automatic amplitudes' `TreeProcess`,
+    `TreeHadronProcess` or `CorrelatedDecays` (spin-correlated decays); the others wrapped in
+    `WithDecays` when the card decays particles (isotropically). `checks=False` leaves out the probe
+    of the integrand and the check that every model parameter the card sets has an effect
+    (`gen.processes.guard`)."""
     from ..physics.matrix import MODELS
 
     if MODELS[cfg.model].automatic and cfg.hadron_beams:

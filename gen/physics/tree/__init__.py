@@ -12,7 +12,8 @@ from ..particles import species
 from .amplitudes import ProcessRefused, TreeAmplitude
 from .model import MODEL_FILES, ModelFileError, TreeModel, load
 
-__all__ = ["build", "allowed", "singular_lines", "resolve", "hadron_subprocesses", "HADRON_MASSLESS", "TreeAmplitude", "ProcessRefused", "ModelFileError", "TreeModel", "load",
+__all__ = ["build", "allowed", "singular_lines", "resolve", "hadron_subprocesses", "HADRON_MASSLESS", "TreeAmplitude",
+           "ProcessRefused", "ModelFileError", "TreeModel", "load",
            "MODEL_FILES"]
 
 

@@ -667,7 +667,8 @@ class OrderedFlows:
 
         amp = self.amp
         ext, moms = amp._externals(p), amp._moms(p)
-        w = sum(np.abs(amp.ordered.trace_amplitudes(amp._ordered_amps(ext, moms, h))) ** 2 for h in amp.helicity_configs)
+        w = sum(np.abs(amp.ordered.trace_amplitudes(amp._ordered_amps(ext, moms, h))) ** 2
+                for h in amp.helicity_configs)
         return draw_index(w, rng.random(p.shape[0]))
 
 

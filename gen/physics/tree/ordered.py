@@ -31,7 +31,6 @@ import numpy as np
 __all__ = ["GluonOrdered", "colour_matrix"]
 
 N_COLOURS = 3
-METRIC = np.array([1.0, -1.0, -1.0, -1.0])
 
 
 def _dot(a, b):
@@ -50,8 +49,8 @@ def colour_matrix(orderings: np.ndarray) -> np.ndarray:
     pos[np.arange(k)[:, None], full] = np.arange(n)[None, :]  # position of each gluon in each trace
     out = np.empty((k, k))
     for s in range(k):
-        # the index after position j of trace sigma is joined to the index after the same gluon's
-        # position in trace tau; following i_j -> j_pi(j) -> i_f(j) gives f(j) = pos_sigma(tau[pos_tau(sigma[j]) - 1]) + 1
+        # index i_j of trace sigma meets index j_pi(j) of trace tau (pi: the gluon's position in tau),
+        # which meets i_f(j) with f(j) = pos_sigma(tau[pi(j) - 1]) + 1; the loops are f's cycles
         pi = pos[:, full[s]]  # (K, n): position in tau of the gluon at position j of sigma
         prev = full[np.arange(k)[:, None], (pi - 1) % n]  # gluon before it in tau
         f = (pos[s][prev] + 1) % n  # (K, n)
