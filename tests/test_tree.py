@@ -614,3 +614,21 @@ def test_gluon_events_get_ring_flows(tmp_path):
         for t in tags:  # incoming: colour in; outgoing: colour out
             assert (c[:2] == t).sum() + (a[2:] == t).sum() == (a[:2] == t).sum() + (c[2:] == t).sum()
     assert len({tuple(r) for r in np.concatenate([col, anti], axis=1).tolist()}) >= 6
+
+
+def test_gluon_helicities_in_the_record_cover_both_parity_halves():
+    """g g -> g g with sampled helicities: every event's helicities are a configuration with a
+    non-zero amplitude, and each configuration and its parity image (all helicities flipped, the
+    same |M|^2 for massless QCD; common practice, no source) occur about equally often."""
+    from gen.card import parse_card
+    from gen.processes import build_process
+
+    lines = ["[process]", 'model = "standard"', 'incoming = ["g", "g"]', 'outgoing = ["g", "g"]', 'helicities = "sample"',
+             "[collider]", "sqrt_s = 500.0", "[cuts]", "pt_min = 20.0", "[sampling]", "events = 10"]
+    proc = build_process(parse_card("\n".join(lines) + "\n", "gg.toml"))
+    x = np.random.default_rng(2).random((4000, proc.ndim))
+    h = proc.events(x[proc.weights(x) > 0], np.random.default_rng(3)).helicity
+    allowed = {tuple(float(v) for v in c) for c in proc.amplitude.helicity_configs}
+    assert {tuple(r) for r in h.tolist()} <= allowed
+    first = np.array([tuple(r) <= tuple(-v for v in r) for r in h.tolist()])
+    assert abs(first.mean() - 0.5) < 4 * math.sqrt(0.25 / first.size)

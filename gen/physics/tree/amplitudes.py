@@ -223,6 +223,15 @@ class TreeAmplitude:
         points) and its reduced set of orderings; the colour sum is exact."""
         size = np.array([float(self.ordered.colour_summed(self._ordered_amps(ext, moms, h)).sum()) for h in hels])
         self.helicity_configs = [h for h, v in zip(hels, size) if v > 1e-24 * size.max()] if size.any() else hels
+        # parity: flipping every helicity conjugates each colour-ordered amplitude up to one phase,
+        # so |M|^2 is the same; one configuration of each pair is evaluated, counted twice
+        kept = set(self.helicity_configs)
+        self.parity_configs = [h for h in self.helicity_configs if h <= tuple(-x for x in h)]
+        if len(self.parity_configs) * 2 != len(self.helicity_configs) or \
+                any(tuple(-x for x in h) not in kept for h in self.parity_configs):
+            self.parity_configs, self.parity_factor = list(self.helicity_configs), 1.0
+        else:
+            self.parity_factor = 2.0
         from .ordered import GluonOrdered
 
         q = self.probe_momenta(seed + 1, 12)
@@ -433,17 +442,18 @@ class TreeAmplitude:
         configurations, or one drawn per point."""
         ext = self._externals(p)
         moms = self._moms(p)
-        hels = self.helicity_configs
+        hels, factor = self.parity_configs, self.parity_factor
         if self.helicity_mode == "sample" and len(hels) > 1:
             rng = rng or np.random.default_rng()
             hi = rng.integers(len(hels), size=p.shape[0])
             table = np.array(hels)
             per_leg = tuple(table[hi, i] for i in range(len(self.legs)))
-            return self.average * len(hels) * self.ordered.colour_summed(self._ordered_amps(ext, moms, per_leg))
+            summed = self.ordered.colour_summed(self._ordered_amps(ext, moms, per_leg))
+            return self.average * factor * len(hels) * summed
         total = np.zeros(p.shape[0])
         for h in hels:
             total += self.ordered.colour_summed(self._ordered_amps(ext, moms, h))
-        return self.average * total
+        return self.average * factor * total
 
     def _squared(self, p: np.ndarray, rng: np.random.Generator | None) -> np.ndarray:
         n = p.shape[0]
@@ -485,9 +495,13 @@ class TreeAmplitude:
         n = p.shape[0]
         ext = self._externals(p)
         moms = self._moms(p)
-        if self.ordered is not None:
-            w = [self.ordered.colour_summed(self._ordered_amps(ext, moms, h)) for h in self.helicity_configs]
-        elif self.colour_mode == "sample":
+        if self.ordered is not None:  # a configuration of each parity pair, then one of the pair at random
+            table = np.array(self.parity_configs, float)
+            w = [self.ordered.colour_summed(self._ordered_amps(ext, moms, h)) for h in self.parity_configs]
+            k = draw_index(np.stack(w), rng.random(n))
+            flip = np.where(rng.random(n) < 0.5 * (self.parity_factor - 1.0), -1.0, 1.0)
+            return (table[k] * flip[:, None] * self._helicity_unit()).astype(np.float32)
+        if self.colour_mode == "sample":
             cols = self._draw_colours(rng, n)
             w = [np.abs(self._amp_per_point(ext, moms, p, h, cols)) ** 2 for h in self.helicity_configs]
         else:
@@ -495,8 +509,11 @@ class TreeAmplitude:
             w = [self._colour_summed([self._amp(ext, moms, h, c, cache) for c in self.colour_basis])
                  for h in self.helicity_configs]
         k = draw_index(np.stack(w), rng.random(n))
-        unit = np.array([0.5 if species(leg.name).spin2 == 1 else 1.0 for leg in self.legs])
-        return (np.array(self.helicity_configs, float) * unit)[k].astype(np.float32)
+        return (np.array(self.helicity_configs, float) * self._helicity_unit())[k].astype(np.float32)
+
+    def _helicity_unit(self) -> np.ndarray:
+        """hbar per unit of each leg's helicity label: 1/2 for fermions, 1 otherwise."""
+        return np.array([0.5 if species(leg.name).spin2 == 1 else 1.0 for leg in self.legs])
 
     def _colour_summed(self, amps) -> np.ndarray:
         """sum over colour classes of w |M|^2 from the basis classes' amplitudes (K, N)."""
@@ -668,7 +685,7 @@ class OrderedFlows:
         amp = self.amp
         ext, moms = amp._externals(p), amp._moms(p)
         w = sum(np.abs(amp.ordered.trace_amplitudes(amp._ordered_amps(ext, moms, h))) ** 2
-                for h in amp.helicity_configs)
+                for h in amp.parity_configs)
         return draw_index(w, rng.random(p.shape[0]))
 
 
