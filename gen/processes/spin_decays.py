@@ -39,7 +39,7 @@ from .base import particle_widths
 from .decays import DecayChain
 from .fixed_beams import FixedBeams
 from .interface import CannotValidate, Channel, EventData
-from .tree import TreeProcess, _name_of, _tree
+from .tree import TreeProcess, _tree, amplitude_inputs
 
 __all__ = ["CorrelatedDecays", "OnShellMap"]
 
@@ -75,18 +75,15 @@ class CorrelatedDecays(TreeProcess):
         for st in reversed(self.steps):  # innermost decays last in the list
             below[st.parent] = below[st.children[0]] + below[st.children[1]]
         self.below = below
-        masses = {species(n).name: m for n, m in zip(self.names, res.masses)}
-        masses.update({_name_of(pdg): m for pdg, m in cfg.masses.items()})
-        widths = {_name_of(pdg): w for pdg, w in cfg.widths.items()}
-        widths.update({st.particle: st.width for st in self.steps})
+        inputs = amplitude_inputs(cfg, dict(zip(self.names, res.masses)))
+        inputs["widths"].update({st.particle: st.width for st in self.steps})
+        masses, widths = inputs["masses"], inputs["widths"]
         position = {i: k for k, i in enumerate(self.leaves)}
         resonances = [(tuple(sorted(position[i] for i in below[st.parent])), st.particle) for st in self.steps]
-        opts = {"helicities": cfg.process_options.get("helicities", "sum"),
-                "colours": cfg.process_options.get("colours", "auto")}
         leaf_names = [self.names[i] for i in self.leaves]
         try:
             self.amplitude = tree.build(cfg.model, [p.name for p in cfg.incoming], leaf_names, params=self.params,
-                                        masses=masses, widths=widths, resonances=resonances, **opts)
+                                        resonances=resonances, **inputs)
         except tree.ProcessRefused as exc:
             raise CardError(cfg.source, "decays", f"the decays cannot be joined to the production in one amplitude: "
                             f"{exc}") from None

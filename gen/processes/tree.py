@@ -105,15 +105,8 @@ class TreeProcess(FixedBeams):
         super().__init__(cfg)
         self.n_out = len(cfg.outgoing)
         names = [p.name for p in self.species]
-        res = cfg.resolved
-        run_masses = dict(zip(names, res.masses))
-        opts = {"helicities": cfg.process_options.get("helicities", "sum"),
-                "colours": cfg.process_options.get("colours", "auto")}
-        card_masses = {species(n).name: m for n, m in run_masses.items()}
-        card_masses.update({_name_of(pdg): m for pdg, m in cfg.masses.items()})
-        card_widths = {_name_of(pdg): w for pdg, w in cfg.widths.items()}
         self.amplitude = tree.build(cfg.model, [p.name for p in cfg.incoming], [p.name for p in cfg.outgoing],
-                                    params=self.params, masses=card_masses, widths=card_widths, **opts)
+                                    params=self.params, **amplitude_inputs(cfg, dict(zip(names, cfg.resolved.masses))))
         rec = self.amplitude.recursion
         structures = list(propagator_structures(rec, 2))
         cut = cfg.cuts.get("pair_mass_min", 0.0)
@@ -184,7 +177,14 @@ class TreeProcess(FixedBeams):
                              "tests (tests/test_tree.py)")
 
 
-def _name_of(pdg: int) -> str:
+def amplitude_inputs(cfg: RunConfig, masses: dict[str, float]) -> dict:
+    """What `tree.build` takes from a card besides the process and parameters: the masses (the
+    run's `masses` by particle name, then [parameters.masses]), the widths of [parameters.widths]
+    and the options helicities and colours."""
     from ..physics.particles import lookup
 
-    return lookup(int(pdg)).name
+    out_masses = {species(n).name: m for n, m in masses.items()}
+    out_masses.update({lookup(int(pdg)).name: m for pdg, m in cfg.masses.items()})
+    return {"masses": out_masses, "widths": {lookup(int(pdg)).name: w for pdg, w in cfg.widths.items()},
+            "helicities": cfg.process_options.get("helicities", "sum"),
+            "colours": cfg.process_options.get("colours", "auto")}

@@ -29,11 +29,11 @@ from ..physics.channels import MultiChannel
 from ..physics.constants import HBARC2_PB
 from ..physics.kinematics import BreitWignerMap, PowerMap, boost_z
 from ..physics.matrix.registry import draw_index
-from ..physics.particles import lookup, species
+from ..physics.particles import species
 from ..physics.tree.amplitudes import flow_chooser
 from .hadron import HadronCollision
 from .interface import CannotValidate, Channel, EventData
-from .tree import propagator_structures, topologies
+from .tree import amplitude_inputs, propagator_structures, topologies
 
 __all__ = ["TreeHadronProcess"]
 
@@ -63,11 +63,7 @@ class TreeHadronProcess(HadronCollision):
     def _index_subprocesses(self) -> None:
         cfg = self.cfg
         params = dict(self.params, alpha_s=TREE_ALPHA_S_REFERENCE)
-        masses = dict(tree.HADRON_MASSLESS)
-        masses.update({lookup(int(pdg)).name: m for pdg, m in cfg.masses.items()})
-        widths = {lookup(int(pdg)).name: w for pdg, w in cfg.widths.items()}
-        opts = {"helicities": cfg.process_options.get("helicities", "sum"),
-                "colours": cfg.process_options.get("colours", "auto")}
+        inputs = amplitude_inputs(cfg, dict(tree.HADRON_MASSLESS))
         self.amplitudes: list = []
         #: (amplitude index, beams swapped) of each distinct |M|^2 evaluation
         self.evaluations: list[tuple[int, bool]] = []
@@ -80,8 +76,7 @@ class TreeHadronProcess(HadronCollision):
             canon = tuple(sorted((a, b)))
             key = (canon, sub.outgoing)
             if key not in amp_of:
-                amp = tree.build(cfg.model, list(canon), list(sub.outgoing), params=params, masses=masses,
-                                 widths=widths, **opts)
+                amp = tree.build(cfg.model, list(canon), list(sub.outgoing), params=params, **inputs)
                 amp_of[key] = self._same_as(amp, prints)
                 if amp_of[key] == len(self.amplitudes):
                     self.amplitudes.append(amp)
