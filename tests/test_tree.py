@@ -14,7 +14,9 @@ References, named at each check:
   vanishes (Ward identity; Peskin & Schroeder (1995), sec. 5.5 and 16.3) and Lorentz invariance of
   sum |M|^2 (common practice, no source);
 - the high-energy cancellation in e+e- -> W+W-: without the s-channel gamma and Z the
-  cross-section grows with s, with them it falls (Peskin & Schroeder (1995), sec. 21.2; from memory).
+  cross-section grows with s, with them it falls (Peskin & Schroeder (1995), sec. 21.2; from memory),
+  and its Born threshold limit sigma = pi alpha^2 beta / (s s_W^4) (Fadin, Khoze & Martin, Phys.
+  Lett. B311 (1993) 311; from memory).
 """
 
 from __future__ import annotations
@@ -297,6 +299,23 @@ def test_w_pairs_cancel_at_high_energy(tmp_path):
     assert s_full[1] < 3.0 * s_full[0]  # s sigma grows like log s (about 2x here)
     assert s_alone[1] > 20.0 * s_alone[0]  # the unitarity-violating growth, about 100x for 10x in sqrt(s)
     assert _sigma_2to2(full, 5000.0) < 0.01 * _sigma_2to2(alone, 5000.0)
+
+
+@pytest.mark.parametrize("beta, tol", [(0.03, 5e-4), (0.01, 6e-5), (0.003, 6e-6)])
+def test_w_pairs_at_threshold_follow_the_published_born_limit(beta, tol):
+    """e+e- -> W+W- on shell near threshold: sigma = pi alpha^2 beta / (s s_W^4) (1 + O(beta^2)), the
+    S-wave neutrino exchange (the photon and Z enter at beta^3), in the same couplings (Fadin, Khoze
+    & Martin, Phys. Lett. B311 (1993) 311, eq. 2; Denner, Fortsch. Phys. 41 (1993) 307; from
+    memory). Here the O(beta^2) term is about -0.32 beta^2, so the tolerance scales with beta^2."""
+    from gen.physics.constants import HBARC2_PB
+    from gen.physics.tree import resolve
+
+    par = resolve("standard")
+    amp = build("standard", ["e-", "e+"], ["W+", "W-"])
+    sqrt_s = 2.0 * par["m_W"] / math.sqrt(1.0 - beta * beta)
+    limit = HBARC2_PB * math.pi * par["alpha"] ** 2 * beta / (sqrt_s ** 2 * par["sw2"] ** 2)
+    assert _sigma_2to2(amp, sqrt_s) == pytest.approx(limit, rel=tol)
+    assert abs(_sigma_2to2(amp, sqrt_s) / limit - 1.0) > 0.1 * tol  # the beta^2 term is seen: not a tautology
 
 
 # --- processes from the card -------------------------------------------------------------------
