@@ -179,6 +179,7 @@ def _report_run(res) -> None:
         print(f"  unweighted  {st.accepted} events, efficiency {st.efficiency:.1%}, "
               f"{st.overflow_events} above w_max carrying {st.overflow_share:.2%} of the total "
               f"(sampling pass: {est:.6g} ± {err:.2g} {unit})")
+    _print_channels(rec)
     if rec["parameters"].get("couplings"):
         print("  couplings   " + _couplings_text(rec["process"]["model"], rec["parameters"]["couplings"]))
     for f in res.files:
@@ -191,6 +192,25 @@ def _report_run(res) -> None:
         print(f"  summary     {res.folder / name}")
         print(f"  time        {t['total_s']:.2f} s in all (adaptation {t['adaptation_s']:.2f} s)"
               + (f", {rate:.4g} events/s" if rate else ""))
+
+
+#: channels listed by name in the summaries; the rest are counted
+CHANNELS_SHOWN = 6
+
+
+def _print_channels(rec) -> None:
+    """The multi-channel phase space of a run: each channel's adapted weight and its share of sigma."""
+    chans = rec.get("grid", {}).get("channels")
+    if not chans:
+        return
+    print(f"  channels    {len(chans)}, adapted weight / share of {rec['measure']['quantity']} covered:")
+    top = sorted(chans, key=lambda c: -c["covers"])
+    for c in top[:CHANNELS_SHOWN]:
+        print(f"    {c['weight']:6.1%} / {c['covers']:6.1%}  {c['name']}")
+    if len(top) > CHANNELS_SHOWN:
+        rest = top[CHANNELS_SHOWN:]
+        print(f"    {sum(c['weight'] for c in rest):6.1%} / {sum(c['covers'] for c in rest):6.1%}  "
+              f"{len(rest)} more")
 
 
 def _report_combined(folder) -> None:
@@ -233,7 +253,7 @@ def _summarize(path: Path) -> dict:
             "cross_section": rec["cross_section"], "process": rec["process"], "collider": rec["collider"],
             "parameters": rec.get("parameters", {}), "unweighting": rec.get("unweighting"), "seed": rec["seed"],
             "job": rec["job"], "schema_version": rec["schema_version"], "program": rec.get("program", "?"),
-            "created": rec.get("created", "?"), "measure": rec["measure"],
+            "created": rec.get("created", "?"), "measure": rec["measure"], "grid": rec.get("grid", {}),
             **({"decays": rec["decays"]} if "decays" in rec else {})}
 
 
@@ -303,6 +323,7 @@ def _print_info(info: dict) -> None:
         u = info["unweighting"]
         print(f"  unweighting efficiency {u['efficiency']:.1%}, {u['overflow_events']} above w_max "
               f"({u['overflow_share']:.2%} of the total)")
+    _print_channels(info)
     if info["parameters"].get("couplings"):
         print("  couplings   " + _couplings_text(proc["model"], info["parameters"]["couplings"]))
     model = info["parameters"].get("model", {})

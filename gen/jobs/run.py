@@ -114,11 +114,24 @@ def _record(proc: Process, grid: Grid, job: int | None, jobs: int, run_id: str) 
         **sections,
         "measure": measure_section(proc, xs),
         "cross_section": {"total": xs.as_dict(), "method": "vegas adaptation of the grid"},
-        "grid": {"checksum": grid.checksum, "max_weight": grid.max_weight},
+        "grid": _grid_section(proc, grid),
         "seed": cfg.sampling["seed"],
         "job": {"index": 0 if job is None else job, "count": jobs},
         "integration": dict(cfg.integration),
     }
+
+
+def _grid_section(proc: Process, grid: Grid) -> dict:
+    """The grid's checksum and maximum weight, and for a multi-channel phase space each channel's
+    adapted weight and share of the cross-section (worked out once per process and grid)."""
+    out = {"checksum": grid.checksum, "max_weight": grid.max_weight}
+    cached = getattr(proc, "_channel_report", None)
+    if cached is None or cached[0] != grid.checksum:
+        cached = (grid.checksum, proc.channel_report(grid.nodes))
+        proc._channel_report = cached
+    if cached[1]:
+        out["channels"] = cached[1]
+    return out
 
 
 def measure_section(proc: Process, xs: CrossSection) -> dict:

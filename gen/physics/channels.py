@@ -174,3 +174,18 @@ class MultiChannel:
         w = np.zeros(x.shape[0])
         w[live] = 1.0 / g[live]
         return p, w, ch
+
+    def shares(self, p: np.ndarray, sqrt_s) -> np.ndarray:
+        """(N, k): the part alpha_i g_i / sum_j alpha_j g_j of each channel in the density at
+        momenta p (N, n, 4) -- how much of a point's weight each channel's map accounts for."""
+        sqrt_s = _per_point(sqrt_s, p.shape[0])
+        g = np.stack([a * top.density(p, sqrt_s) for a, top in zip(self.alpha, self.topologies)], axis=1)
+        tot = g.sum(axis=1, keepdims=True)
+        return np.divide(g, tot, out=np.zeros_like(g), where=tot > 0)
+
+    def sampled_fractions(self, nodes) -> np.ndarray:
+        """(k,): the share of points an adapted vegas map (the nodes of the channel-picking
+        variable) sends to each channel: its adapted channel weight."""
+        nodes = np.asarray(nodes, float)
+        y = np.interp(np.arange(self.k + 1) / self.k, nodes, np.linspace(0.0, 1.0, nodes.size))
+        return np.diff(y)

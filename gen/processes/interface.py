@@ -176,6 +176,12 @@ class Process(abc.ABC):
         """What `gen validate` compares the sample with, built with `claimed`, the parameters section
         of the file's run record (None: the process's own); raises CannotValidate when there is nothing."""
 
+    def channel_report(self, nodes) -> list[dict]:
+        """For a multi-channel phase space, one entry per channel given the adapted grid's nodes:
+        its name, its adapted weight (share of points) and the share of the cross-section its map
+        covers; empty for a single channel."""
+        return []
+
     def couplings(self) -> dict[str, float]:
         """The couplings the process uses, as its model names them (alpha, alpha_s, sin^2 theta_W ...)."""
         return {k: float(self.params[k]) for k in MODELS[self.cfg.model].couplings if k in self.params}

@@ -146,6 +146,9 @@ class TreeProcess(FixedBeams):
             w[live] = self.norm * self.amplitude.squared(full[live], rng) * w_ps[live]
         return w
 
+    def channel_report(self, nodes) -> list[dict]:
+        return channel_report(self, self.phase, nodes, 0, lambda x: self.sqrt_s)
+
     def _cut_momenta(self, full):
         """The centre-of-mass momenta (N, n, 4) the cuts see: the outgoing particles."""
         return full[:, 2:]
@@ -175,6 +178,35 @@ class TreeProcess(FixedBeams):
         raise CannotValidate("samples of the automatic amplitudes have no analytic reference in gen validate; the "
                              "amplitudes are checked against the hand-coded library and published values by the "
                              "tests (tests/test_tree.py)")
+
+
+#: points drawn from the adapted map to estimate what share of sigma each channel covers
+CHANNEL_REPORT_POINTS = 4000
+
+
+def channel_report(proc, phase: MultiChannel, nodes, offset: int, sqrt_s_of) -> list[dict]:
+    """The channels of `phase` (the process's variables from `offset` on; `sqrt_s_of(x)` their
+    energies) with their adapted weights, read from the map of the channel-picking variable, and
+    the share of the cross-section each channel's density accounts for, estimated from points of
+    the adapted map with a fixed seed."""
+    import vegas
+
+    if phase.k < 2:
+        return []
+    frac = phase.sampled_fractions(nodes[offset])
+    amap = vegas.AdaptiveMap([list(n) for n in nodes])
+    y = np.random.default_rng(20261203).random((CHANNEL_REPORT_POINTS, len(nodes)))
+    x, jac = np.empty_like(y), np.empty(y.shape[0])
+    amap.map(y, x, jac)
+    w = proc.weights(x) * jac
+    covers = np.zeros(phase.k)
+    if w.sum() > 0:
+        live = w > 0
+        sqrt_s = np.broadcast_to(sqrt_s_of(x), (x.shape[0],))[live]
+        cm = phase.generate(x[live, offset:], sqrt_s)[0]
+        covers = (w[live, None] * phase.shares(cm, sqrt_s)).sum(axis=0) / w.sum()
+    return [{"name": t.name, "weight": float(f), "covers": float(c)}
+            for t, f, c in zip(phase.topologies, frac, covers)]
 
 
 def amplitude_inputs(cfg: RunConfig, masses: dict[str, float]) -> dict:

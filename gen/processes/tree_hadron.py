@@ -33,7 +33,7 @@ from ..physics.particles import species
 from ..physics.tree.amplitudes import flow_chooser
 from .hadron import HadronCollision
 from .interface import CannotValidate, Channel, EventData
-from .tree import amplitude_inputs, propagator_structures, topologies
+from .tree import amplitude_inputs, channel_report, propagator_structures, topologies
 
 __all__ = ["TreeHadronProcess"]
 
@@ -195,6 +195,10 @@ class TreeHadronProcess(HadronCollision):
                 full = self._parton_momenta(shat[live], cm[live], swapped)
                 me[k, live] = self.amplitudes[ai].squared(full, rng, a_s[live])
         return _Terms(x1, x2, shat, cm, lab, mu_r, mu_f, a_s, f1, f2, me, np.where(live, norm, 0.0))
+
+    def channel_report(self, nodes) -> list[dict]:
+        return channel_report(self, self.phase, nodes, 2,
+                              lambda x: np.sqrt(self.shat_map(x[:, 0], self.shat_min, self.shat_max)[0]))
 
     # --- integrand and events ------------------------------------------------------------------
     def weights(self, x):
