@@ -213,11 +213,16 @@ def test_ward_identity(incoming, outgoing, leg):
     helicity configuration, where single diagrams do not (Peskin & Schroeder (1995), secs. 5.5, 16.3)."""
     # fixed widths break gauge invariance at O(Gamma/M) (see the complex-mass test): no W width here
     given = {"width_W": 0.0} if "W+" in outgoing else (PURE_QCD if "e-" not in incoming else {})
-    amp = build("standard", incoming, outgoing, given=given, colour_ordered=False)
+    check_ward("standard", incoming, outgoing, leg, given)
+
+
+def check_ward(model, incoming, outgoing, leg, given) -> None:
+    """The Ward identity of leg `leg` of a process, for its colour classes and helicities."""
+    amp = build(model, incoming, outgoing, given=given, colour_ordered=False)
     p = amp.probe_momenta(9, 4)
     ext, moms = amp._externals(p), amp._moms(p)
     k = p[:, leg, :].T.astype(complex)
-    fast = build("standard", incoming, outgoing, given=given)
+    fast = build(model, incoming, outgoing, given=given)
     if fast.ordered is not None:  # gluons only: the colour-ordered amplitudes obey it one by one
         for h in fast.helicity_configs[:8]:
             normal = np.abs(fast.ordered.trace_amplitudes(fast._ordered_amps(ext, moms, h))).max()

@@ -39,6 +39,9 @@ class ProcessRefused(ValueError):
 _PERMS = list(itertools.permutations(range(3)))
 #: the exact colour sum is used (colours = "auto") up to this many classes of colour assignments
 EXACT_COLOUR_CLASSES = 120
+#: helicity configurations probed while setting up the exact colour sum (the largest ones to find
+#: the colour classes that vanish, random ones for the colour basis, with more points instead)
+COLOUR_PROBE_HELICITIES = 4
 
 
 def _states(leg: Leg):
@@ -210,7 +213,9 @@ class TreeAmplitude:
         keep_h = [h for h, v in zip(hels, size) if v > 1e-24 * size.max()] if size.any() else hels
         self.helicity_configs = keep_h
         if self.colour_mode == "sum":
-            csize = {col: sum(float((np.abs(self._amp(ext, moms, h, col, cache)) ** 2).sum()) for h in keep_h)
+            # whether a colour class vanishes is colour algebra: the largest helicities tell
+            top_h = [hels[k] for k in np.argsort(-size)[:COLOUR_PROBE_HELICITIES]]
+            csize = {col: sum(float((np.abs(self._amp(ext, moms, h, col, cache)) ** 2).sum()) for h in top_h)
                      for col in classes}
             top = max(csize.values()) if csize else 0.0
             self.colour_classes = [(c, float(classes[c])) for c in classes if top == 0.0 or csize[c] > 1e-24 * top]
@@ -265,11 +270,13 @@ class TreeAmplitude:
         if len(classes) <= 2:
             self.colour_basis, self.colour_matrix = classes, np.diag(w).astype(complex)
             return
-        p = self.probe_momenta(seed + 1, 4)
+        # columns of samples: points x helicities, several times the dimension of the colour space
+        n_pts = max(4, len(classes) // COLOUR_PROBE_HELICITIES + 1)
+        p = self.probe_momenta(seed + 1, n_pts)
         ext, moms = self._externals(p), self._moms(p)
         rng = np.random.default_rng(seed)
         hels = self.helicity_configs
-        pick = [hels[k] for k in rng.permutation(len(hels))[:max(4, min(len(hels), 2 * len(classes) // 4 + 1))]]
+        pick = [hels[k] for k in rng.permutation(len(hels))[:COLOUR_PROBE_HELICITIES]]
         cache: dict = {}
         samples = np.concatenate([np.stack([self._amp(ext, moms, h, c, cache) for c in classes]) for h in pick], axis=1)
         scale = np.abs(samples).max(axis=1, keepdims=True)

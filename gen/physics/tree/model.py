@@ -2,7 +2,8 @@
 
 A model file (TOML, format in DEVELOPERS.md, "Model files") has:
 
-- ``[about]``: name, description, gauge, the default width treatment (``widths = "fixed"`` or
+- ``[about]``: name, description, optionally the model it ``extends`` (whose sections it adds to),
+  gauge, the default width treatment (``widths = "fixed"`` or
   ``"complex_mass"``), the library model whose input schemes resolve the parameters
   (``parameters``) and any ``extra_parameters``, and the particles treated as ``massless``;
 - ``[derived]``: named expressions evaluated in order, and ``[derived_complex_mass]`` with the
@@ -22,11 +23,17 @@ Forms, with the vertex factor i x coupling x structure (legs numbered from 1 in 
 - ``vector-quartic``: 2 g^{13} g^{24} - g^{12} g^{34} - g^{14} g^{23}; with ``colour = "adjoint"``
   (four gluons) the bracket of Peskin & Schroeder (1995), eq. (16.10);
 - ``vector-vector-scalar``, ``vector-vector-scalar-scalar``: g^{12};
+- ``strength-pair-scalar`` (vector, vector, scalar): (k1.k2) g^{12} - k2^1 k1^2, the product of
+  two field strengths (an effective coupling such as the heavy-top g g H vertex);
+- ``vector-cubic-scalar``, ``vector-quartic-scalar``: the ``vector-cubic`` and ``vector-quartic``
+  structures of the vectors (their own momenta) times a scalar: the gluon terms of the same
+  effective coupling;
 - ``scalar-cubic``, ``scalar-quartic``: 1.
 
 Colour: ``none`` (a colour-conserving delta where the fermions are quarks), ``fundamental``
-(t^a_ij of the gluon between the antiquark and the quark, Tr t^a t^b = delta/2) or ``adjoint``
-(f^abc for three gluons, the f f pairs of the four-gluon vertex).
+(t^a_ij of the gluon between the antiquark and the quark, Tr t^a t^b = delta/2), ``adjoint``
+(f^abc for three gluons, the f f pairs of the four-gluon vertex; other legs colourless) or
+``pair`` (delta^ab of two gluons; other legs colourless).
 """
 
 from __future__ import annotations
@@ -46,7 +53,8 @@ __all__ = ["ModelFileError", "TreeModel", "Vertex", "NumericVertex", "FORMS", "l
 
 HERE = Path(__file__).parent
 #: the model files shipped with gen, by model name
-MODEL_FILES = {"standard": HERE / "standard.toml", "qed-tree": HERE / "qed.toml", "scalar-tree": HERE / "scalar.toml"}
+MODEL_FILES = {"standard": HERE / "standard.toml", "qed-tree": HERE / "qed.toml", "scalar-tree": HERE / "scalar.toml",
+               "standard-gluon-higgs": HERE / "gluon-higgs.toml"}
 
 #: form -> (spins of the legs as twice the spin, coupling keys)
 FORMS: dict[str, tuple[tuple[int, ...], tuple[str, ...]]] = {
@@ -56,10 +64,13 @@ FORMS: dict[str, tuple[tuple[int, ...], tuple[str, ...]]] = {
     "vector-quartic": ((2, 2, 2, 2), ("coupling",)),
     "vector-vector-scalar": ((2, 2, 0), ("coupling",)),
     "vector-vector-scalar-scalar": ((2, 2, 0, 0), ("coupling",)),
+    "strength-pair-scalar": ((2, 2, 0), ("coupling",)),
+    "vector-cubic-scalar": ((2, 2, 2, 0), ("coupling",)),
+    "vector-quartic-scalar": ((2, 2, 2, 2, 0), ("coupling",)),
     "scalar-cubic": ((0, 0, 0), ("coupling",)),
     "scalar-quartic": ((0, 0, 0, 0), ("coupling",)),
 }
-COLOURS = ("none", "fundamental", "adjoint")
+COLOURS = ("none", "fundamental", "adjoint", "pair")
 WIDTH_SCHEMES = ("fixed", "complex_mass")
 
 
@@ -238,17 +249,22 @@ def _check_vertex(path, where, vx: Vertex, spins) -> None:
         if not (cols[0] == -3 and cols[1] == 3 and cols[2] == 8):
             raise _fail(path, label, "colour 'fundamental' needs an antiquark, a quark and a gluon")
     elif vx.colour == "adjoint":
-        if any(c != 8 for c in cols):
-            raise _fail(path, label, "colour 'adjoint' needs gluons only")
+        if cols.count(8) < 3 or any(c not in (1, 8) for c in cols):
+            raise _fail(path, label, "colour 'adjoint' needs three or four gluons and colourless legs only")
+    elif vx.colour == "pair":
+        if cols.count(8) != 2 or any(c not in (1, 8) for c in cols):
+            raise _fail(path, label, "colour 'pair' needs two gluons and colourless legs only")
+    elif vx.form in ("vector-cubic-scalar", "vector-quartic-scalar", "strength-pair-scalar") and 8 in cols:
+        raise _fail(path, label, f"gluons at a {vx.form!r} vertex need colour 'adjoint' or 'pair'")
     else:
         if any(c == 8 for c in cols) or (cols.count(3) != cols.count(-3)):
             raise _fail(path, label, "colour 'none' allows colourless legs and one quark-antiquark pair")
 
 
-@lru_cache(maxsize=None)
-def load(name_or_path: str) -> TreeModel:
-    """The validated model of a shipped name (see MODEL_FILES) or a file path."""
-    path = MODEL_FILES.get(name_or_path, Path(name_or_path))
+def _read(path, seen: tuple) -> dict:
+    """A model file's document with the model it `extends` (in [about]: a shipped name or a path
+    beside it) merged in: the base's [derived] lines first, its particles and [about] entries
+    unless this file sets them, its vertices then this file's."""
     try:
         doc = tomllib.loads(Path(path).read_text())
     except (OSError, tomllib.TOMLDecodeError) as exc:
@@ -256,6 +272,26 @@ def load(name_or_path: str) -> TreeModel:
     unknown = set(doc) - {"about", "derived", "derived_complex_mass", "particles", "vertex"}
     if unknown:
         raise _fail(path, "top level", f"unknown sections {sorted(unknown)}")
+    base_name = doc.get("about", {}).pop("extends", None)
+    if base_name is None:
+        return doc
+    base_path = MODEL_FILES.get(base_name, Path(path).parent / str(base_name))
+    if str(base_path) in seen or str(base_path) == str(path):
+        raise _fail(path, "[about] extends", f"{base_name!r} extends this file again (a loop)")
+    base = _read(base_path, seen + (str(path),))
+    merged = {"about": {**base.get("about", {}), **doc.get("about", {})},
+              "derived": {**base.get("derived", {}), **doc.get("derived", {})},
+              "derived_complex_mass": {**base.get("derived_complex_mass", {}), **doc.get("derived_complex_mass", {})},
+              "particles": {**base.get("particles", {}), **doc.get("particles", {})},
+              "vertex": list(base.get("vertex", [])) + list(doc.get("vertex", []))}
+    return merged
+
+
+@lru_cache(maxsize=None)
+def load(name_or_path: str) -> TreeModel:
+    """The validated model of a shipped name (see MODEL_FILES) or a file path."""
+    path = MODEL_FILES.get(name_or_path, Path(name_or_path))
+    doc = _read(path, ())
     about = doc.get("about", {})
     for k in ("name", "description", "parameters"):
         if k not in about:

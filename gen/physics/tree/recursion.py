@@ -5,9 +5,9 @@ Every leg is treated as incoming: an outgoing particle is the incoming antiparti
 momentum reversed, and its external state is the conjugate one (u-bar, v, eps*). A current of a
 subset S of legs is the sum of all tree diagrams joining the legs of S and one off-shell line,
 with the propagator of that line; its label is the particle it is as an incoming leg of the rest
-of the diagram. Currents of two or three smaller subsets are joined at every vertex of the model
-that takes their labels; the amplitude joins the current of all legs but the last with the last
-leg's external state.
+of the diagram. Currents of two or more smaller subsets (one fewer than the vertex has legs) are
+joined at every vertex of the model that takes their labels; the amplitude joins the current of
+all legs but the last with the last leg's external state.
 
 Currents (component-major, points last):
 
@@ -176,6 +176,25 @@ class _Join:
     sign: int
 
 
+def _split(mask: int, k: int):
+    """The partitions of a mask into exactly k non-empty parts, the first holding its lowest bit."""
+    if k == 1:
+        yield (mask,)
+        return
+    low = mask & -mask
+    rest = mask ^ low
+    sub = rest
+    while True:
+        a = low | sub
+        b = mask ^ a
+        if bin(b).count("1") >= k - 1:
+            for tail in _split(b, k - 1):
+                yield (a,) + tail
+        if sub == 0:
+            break
+        sub = (sub - 1) & rest
+
+
 def _fermion_legs(mask: int, fermions: frozenset[int]) -> list[int]:
     return [i for i in range(mask.bit_length()) if mask >> i & 1 and i in fermions]
 
@@ -211,6 +230,8 @@ class Recursion:
         self.vertex_scale: dict[int, np.ndarray] = {}
         # vertices by the multiset of labels of their input legs
         self._by_inputs: dict[tuple[str, ...], list[tuple[NumericVertex, tuple[int, ...], int]]] = defaultdict(list)
+        #: the most currents a vertex joins (its legs less the one it makes)
+        self._most = max((len(v.legs) - 1 for v in vertices), default=2)
         for v in vertices:
             k = len(v.legs)
             seen = set()
@@ -237,7 +258,7 @@ class Recursion:
             if bin(mask).count("1") < 2:
                 continue
             found = set()
-            for parts in self._partitions(mask):
+            for parts in self._partitions(mask, self._most):
                 for combo in itertools.product(*(sorted(labels.get(p, ())) for p in parts)):
                     key = tuple(sorted(combo))
                     for v, ins, out in self._by_inputs.get(key, ()):
@@ -294,31 +315,11 @@ class Recursion:
         return True
 
     @staticmethod
-    def _partitions(mask: int):
-        """Unordered partitions of a mask into two and three non-empty parts."""
-        low = mask & -mask
-        rest = mask ^ low
-        sub = rest
-        while True:
-            a = low | sub
-            b = mask ^ a
-            if b:
-                yield (a, b)
-                # three parts: a as before, b split into two (the lower bit of b in the first)
-                lb = b & -b
-                rb = b ^ lb
-                s2 = rb
-                while True:
-                    c = lb | s2
-                    d = b ^ c
-                    if d:
-                        yield (a, c, d)
-                    if s2 == 0:
-                        break
-                    s2 = (s2 - 1) & rb
-            if sub == 0:
-                break
-            sub = (sub - 1) & rest
+    def _partitions(mask: int, most: int = 3):
+        """Unordered partitions of a mask into two to `most` non-empty parts (each once: a part
+        holds the lowest leg of what is left)."""
+        for k in range(2, most + 1):
+            yield from _split(mask, k)
 
     @staticmethod
     def _assign(v: NumericVertex, ins: tuple[int, ...], combo: tuple[str, ...]) -> tuple[int, ...]:
@@ -347,8 +348,12 @@ class Recursion:
             return _interleave_sign(first, second)
         fs = [_fermion_legs(p, self.fermions) for p in parts]
         if any(len(f) % 2 for f in fs):
-            raise ValueError("four-point vertices with fermions are not supported")
-        return _interleave_sign(fs[0], fs[1]) * _interleave_sign(sorted(fs[0] + fs[1]), fs[2])
+            raise ValueError("vertices of four or more legs with fermions are not supported")
+        sign, acc = 1, fs[0]
+        for f in fs[1:]:
+            sign *= _interleave_sign(acc, f)
+            acc = sorted(acc + f)
+        return sign
 
     # --- external states -------------------------------------------------------------------------
     def external(self, i: int, p, hel: int, colour) -> np.ndarray:
@@ -471,6 +476,19 @@ class Recursion:
                 return 1j * c[0] * (mdot(by_slot[0], by_slot[1]) * by_slot[5 - o][0])[None]
             vec = by_slot[1 - o]
             return 1j * c[0] * vec * by_slot[2][0] * by_slot[3][0]
+        if form == "strength-pair-scalar":
+            return self._strength_pair(by_slot, mom, o, c[0], v.colour)
+        if form == "vector-cubic-scalar":
+            if o == 3:  # the scalar made: the cubic current of slots 0, 1 closed with slot 2
+                j3 = self._vvv(by_slot[0], by_slot[1], mom[0], mom[1], mom[2], c[0], v.colour)
+                return _close_vectors(j3, by_slot[2], v.colour)[None]
+            a, b = (o + 1) % 3, (o + 2) % 3
+            ka, kb = mom[a], mom[b]
+            return self._vvv(by_slot[a], by_slot[b], ka, kb, -(ka + kb + mom[3]), c[0], v.colour) * by_slot[3][0]
+        if form == "vector-quartic-scalar":
+            if o == 4:
+                return _close_vectors(self._vvvv(by_slot, 3, c[0], v.colour), by_slot[3], v.colour)[None]
+            return self._vvvv(by_slot, o, c[0], v.colour) * by_slot[4][0]
         if form in ("scalar-cubic", "scalar-quartic"):
             prod = 1j * c[0]
             for val in inputs:
@@ -547,6 +565,25 @@ class Recursion:
         extra = x.ndim - 2
         bc = (lambda k: k.reshape((4,) + (1,) * extra + (k.shape[1],))) if extra else (lambda k: k)
         return 1j * coupling * (mdot(x, y)[None] * bc(d1) + y * mdot(bc(d2), x)[None] + x * mdot(bc(d3), y)[None])
+
+    @staticmethod
+    def _strength_pair(by_slot, mom, o, coupling, colour):
+        """i c [(k1.k2) g^{12} - k2^1 k1^2] (the product of two field strengths, momenta incoming)
+        times a scalar, colour delta^ab for two gluons ("pair") or none (two photons)."""
+        if o == 2:
+            x, y, k1, k2 = by_slot[0], by_slot[1], mom[0], mom[1]
+            kx, ky = mdot(k2, x), mdot(k1, y)
+            if colour == "pair":  # delta^ab X^a Y^b = 2 Tr(X Y)
+                val = 2.0 * (np.einsum("mijn,mjin->n", _lower(x), y) * mdot(k1, k2) - np.einsum("ijn,jin->n", kx, ky))
+            else:
+                val = mdot(x, y) * mdot(k1, k2) - kx * ky
+            return 1j * coupling * val[None]
+        a = 1 - o
+        x, ka = by_slot[a], mom[a]
+        ko = -(ka + mom[2])
+        extra = x.ndim - 2
+        bc = ka.reshape((4,) + (1,) * extra + (ka.shape[1],)) if extra else ka
+        return 1j * coupling * (mdot(ka, ko) * x - bc * mdot(ko, x)[None]) * by_slot[2][0]
 
     def _vvvv(self, by_slot, o, coupling, colour):
         ins = [s for s in range(4) if s != o]
@@ -649,6 +686,13 @@ class Recursion:
         else:
             total = (j * ext).reshape(-1, n).sum(axis=0)
         return sign * total
+
+
+def _close_vectors(j, z, colour):
+    """sum_mu j_mu z^mu (N,) of two vector currents, the colour traced for gluons (2 Tr(J Z))."""
+    if colour in ("adjoint", "pair"):
+        return 2.0 * np.einsum("mijn,mjin->n", _lower(j), z)
+    return (_lower(j) * z).sum(axis=0)
 
 
 def _block_col_colour(m, col):
