@@ -212,7 +212,12 @@ def test_widths_say_gev_in_every_command(tmp_path):
 
 
 def test_a_low_unweighting_efficiency_warns_with_advice(tmp_path):
-    r = _gen("run", str(ROOT / "cards" / "pp-prompt-photons.toml"), "-o", str(tmp_path), "--events", "300")
+    # three partons with a pair-mass cut far below the demo's: the soft and collinear peaks leave
+    # an efficiency of about 0.1 %
+    text = (ROOT / "cards" / "three-jets-30gev.toml").read_text().replace("pair_mass_min = 6.7082", "pair_mass_min = 0.5")
+    card = tmp_path / "soft-three-jets.toml"
+    card.write_text(text.replace("weighted_events = 5000", "weighted_events = 0"))
+    r = _gen("run", str(card), "-o", str(tmp_path / "out"), "--events", "300")
     assert r.returncode == 0
     assert "gen: warning: the unweighting efficiency is" in r.stderr and "weighted_events" in r.stderr
 

@@ -663,6 +663,9 @@ EFFECTIVE = {
     ("scalar-tree", "quartic"): _with_parameters(SCALAR_TREE, "quartic = 0.5"),
     ("scalar-tree", "cubic"): _with_parameters(SCALAR_TREE, "cubic = 1.5"),
 }
+# the standard model file with the effective Higgs-gluon vertices has the standard file's parameters
+EFFECTIVE.update({("standard-gluon-higgs", k): text.replace('model = "standard"', 'model = "standard-gluon-higgs"')
+                  for (m, k), text in list(EFFECTIVE.items()) if m == "standard"})
 
 INEFFECTIVE = {
     "a W width in e+e- -> mu+mu-": (_with_parameters(EE_MUMU, "width_W = 3"), "parameters.width_W"),

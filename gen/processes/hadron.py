@@ -6,7 +6,9 @@ Integration variables (2 -> 2, three dimensions): tau = x1 x2 (a Breit-Wigner ma
 process has an s-channel resonance inside the allowed mass range, else a logarithmic map), the
 rapidity y of the parton system (flat within |y| <= -ln(tau)/2) and cos(theta*) of the first
 outgoing particle in the parton centre-of-mass frame (flat, or following the 1/t and 1/u poles of
-massless exchange within the range a transverse-momentum cut leaves). A 2 -> 1 process (gluon
+massless exchange within the range a transverse-momentum cut leaves). Two massless particles with a
+p_T cut and no resonance are sampled instead in p_T^2 and their two rapidities, within the cuts
+(see `_pt_rapidity_kinematics`). A 2 -> 1 process (gluon
 fusion to a Higgs boson) is taken in the narrow-width limit, with y its only variable.
 
     sigma = sum_i int dtau dy dcos  f_a(x1, mu_F) f_b(x2, mu_F) |M_i|^2(mu_R) / (2 s-hat)
@@ -183,6 +185,19 @@ class HadronCollision(Process):
             m, w = float(self.params[mname]), float(self.params[wname])
             if w > 0 and self.shat_min < m * m < self.shat_max:
                 self.shat_map = BreitWignerMap(m, w)
+        # massless pairs with a p_T cut and no resonance: p_T^2 and the two rapidities, whose ranges
+        # are the cuts themselves, so that no point is spent outside them
+        self.pt_rapidities = (self.pt_min > 0 and all(m == 0.0 for m in self.m_out)
+                              and not isinstance(self.shat_map, BreitWignerMap))
+        if self.pt_rapidities:
+            c = self.cfg.cuts
+            y_kin = math.acosh(max(self.sqrt_s / (2.0 * self.pt_min), 1.0))
+            y_cut = min(c.get("eta_max", math.inf), c.get("rapidity_max", math.inf))
+            self.y_ranges = []
+            for i in range(2):  # rapidities in the hadrons' frame; the cuts are on laboratory ones
+                y = min(y_cut, y_kin) if i in self.cuts.selected else y_kin
+                self.y_ranges.append((-y - self.y_beams, y - self.y_beams))
+            self.channels = (Channel("p_T^2, y3, y4", 3),)
 
     # --- kinematics --------------------------------------------------------------------------
     def _parton_kinematics(self, x):
@@ -195,6 +210,8 @@ class HadronCollision(Process):
             jac = np.full(n, 2.0 * ylim)
             c = np.zeros(n)
             omc = opc = np.ones(n)
+        elif self.pt_rapidities:
+            return self._pt_rapidity_kinematics(x)
         else:
             shat, jac_s = self.shat_map(x[:, 0], self.shat_min, self.shat_max)
             tau = shat / self.s
@@ -211,6 +228,28 @@ class HadronCollision(Process):
         sq = np.sqrt(tau)
         ey = np.exp(y)
         return sq * ey, sq / ey, tau * self.s, c, omc, opc, jac
+
+    def _pt_rapidity_kinematics(self, x):
+        """The same for a massless pair from p_T^2 (density ~ p_T^-4), y3 and y4 (flat):
+        x1,2 = p_T (e^(+-y3) + e^(+-y4)) / sqrt(s), cos theta* = tanh((y3 - y4)/2), and
+        dtau dy dcos = 2 x1 x2 / s-hat dp_T^2 dy3 dy4 (Ellis, Stirling & Webber (1996), eq. 7.6;
+        dcos = 2 dt / s-hat). Points beyond x = 1 or the card's pair-mass range weigh nothing."""
+        q, jac_q = PowerMap(2.0)(x[:, 0], self.pt_min ** 2, self.s / 4.0)
+        (a3, b3), (a4, b4) = self.y_ranges
+        y3 = a3 + (b3 - a3) * x[:, 1]
+        y4 = a4 + (b4 - a4) * x[:, 2]
+        pt_ = np.sqrt(q)
+        x1 = pt_ * (np.exp(y3) + np.exp(y4)) / self.sqrt_s
+        x2 = pt_ * (np.exp(-y3) + np.exp(-y4)) / self.sqrt_s
+        shat = x1 * x2 * self.s
+        half = 0.5 * (y3 - y4)
+        c = np.tanh(half)
+        omc, opc = 2.0 / (1.0 + np.exp(2.0 * half)), 2.0 / (1.0 + np.exp(-2.0 * half))
+        jac = 2.0 * jac_q * (b3 - a3) * (b4 - a4) / self.s
+        inside = (x1 < 1.0) & (x2 < 1.0) & (shat >= self.shat_min) & (shat <= self.shat_max)
+        jac = np.where(inside, jac, 0.0)
+        x1, x2 = np.where(inside, x1, 0.5), np.where(inside, x2, 0.5)  # harmless values where nothing is weighed
+        return x1, x2, x1 * x2 * self.s, c, omc, opc, jac
 
     def _outgoing(self, shat, c, phi, x1, x2, sin=None):
         """Laboratory momenta (N, n, 4) of the outgoing particles in card order."""
