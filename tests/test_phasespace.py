@@ -9,7 +9,7 @@ import pytest
 from scipy.integrate import quad
 
 from gen.physics.kinematics import BreitWignerMap, PowerMap
-from gen.physics.phasespace import massless_volume, rambo, sequential
+from gen.physics.phasespace import massless_volume, rambo, sequential, three_massless
 
 RNG = np.random.default_rng(99)
 
@@ -45,6 +45,24 @@ def test_sequential_massless_volume(n):
     _check_momenta(p, 50.0, [0.0] * n)
     vol = massless_volume(n, 50.0)
     assert abs(w.mean() - vol) < 5 * w.std() / math.sqrt(w.size)
+
+
+@pytest.mark.parametrize("y_min", [1e-4, 0.05, 0.2])
+def test_three_massless_with_pair_cuts_has_the_cut_dalitz_volume(y_min):
+    """The log-mapped three-body generator: on shell, momentum conserved, and its mean weight the
+    massless three-body volume (Kleiss, Stirling & Ellis (1986), the n = 3 case above) times the
+    share (1 - 3 y_min)^2 of the Dalitz triangle x1 + x2 + x3 = 2 left when every pair mass
+    exceeds y_min s (flat in x1, x2: Ellis, Stirling & Webber (1996), eq. 3.6)."""
+    x = RNG.random((400000, 5))
+    p, w = three_massless(x, 30.0, y_min)
+    live = w > 0
+    _check_momenta(p[live], 30.0, [0.0] * 3)
+    s_pair = [2 * (p[live, i, 0] * p[live, j, 0] - (p[live, i, 1:] * p[live, j, 1:]).sum(-1)) for i, j in
+              ((0, 1), (0, 2), (1, 2))]
+    assert min(float(v.min()) for v in s_pair) >= y_min * 900.0 * (1 - 1e-9)
+    vol = massless_volume(3, 30.0) * (1 - 3 * y_min) ** 2
+    assert abs(w.mean() - vol) < 5 * w.std() / math.sqrt(w.size)
+    assert w.std() / math.sqrt(w.size) < 0.01 * vol
 
 
 def test_massive_two_body_is_exact():

@@ -26,7 +26,7 @@ import numpy as np
 
 from .kinematics import FlatMap, two_body_decay
 
-__all__ = ["massless_volume", "rambo", "sequential"]
+__all__ = ["massless_volume", "rambo", "sequential", "three_massless"]
 
 
 def massless_volume(n: int, sqrt_s: float) -> float:
@@ -118,4 +118,59 @@ def sequential(x: np.ndarray, sqrt_s: float, masses, maps=None):
         out[:, k] = p1
         parent, m_parent = p_rest, m_rest
     out[:, n - 1] = parent
+    return out, weight
+
+
+def three_massless(x: np.ndarray, sqrt_s: float, y_min: float):
+    """Momenta (N, 3, 4) and weights (N,) of three massless particles from points x (N, 5), for
+    integrands singular where particle 3 is soft or collinear to 1 or 2 (a gluon off a quark pair).
+
+    Columns: y13 = s13/s on [y_min, 1 - 2 y_min], then y23 = s23/s on [y_min, 1 - y13 - y_min]
+    (so that y12 = 1 - y13 - y23 >= y_min), each mapped logarithmically (density ~ 1/y, the
+    1/(y13 y23) of the singularities); then the orientation as Euler angles (cos theta, phi, chi), uniform. The massless
+    three-body phase space is dPhi_3 = s/(128 pi^3) dx1 dx2 dOmega dchi/(8 pi^2) with x_i = 2E_i/sqrt(s),
+    x1 = 1 - y23, x2 = 1 - y13 (Ellis, Stirling & Webber (1996), eq. 3.6; Byckling & Kajantie,
+    Particle Kinematics (1973), ch. V).
+    """
+    if y_min <= 0.0:
+        raise ValueError("three_massless needs a pair-mass cut y_min > 0")
+    n_pts = x.shape[0]
+    if 3.0 * y_min >= 1.0:
+        return np.zeros((n_pts, 3, 4)), np.zeros(n_pts)
+    span1 = math.log((1.0 - 2.0 * y_min) / y_min)
+    y13 = y_min * np.exp(span1 * x[:, 0])
+    span2 = np.log(np.maximum(1.0 - y13 - y_min, y_min) / y_min)  # y23 up to where y12 = y_min
+    y23 = y_min * np.exp(span2 * x[:, 1])
+    y12 = 1.0 - y13 - y23
+    inside = (y12 >= y_min * (1.0 - 1e-12)) & (span2 > 0)
+    x1, x2 = 1.0 - y23, 1.0 - y13
+    x3 = 2.0 - x1 - x2
+    e = 0.5 * sqrt_s
+    # particle 1 along z', particle 2 in the x'z' plane, particle 3 balancing them
+    c12 = np.clip(1.0 - 2.0 * y12 / np.where(inside, x1 * x2, 1.0), -1.0, 1.0)
+    s12 = np.sqrt(1.0 - c12 * c12)
+    body = np.zeros((n_pts, 3, 3))
+    body[:, 0, 2] = e * x1
+    body[:, 1, 0] = e * x2 * s12
+    body[:, 1, 2] = e * x2 * c12
+    body[:, 2] = -(body[:, 0] + body[:, 1])
+    ct = 2.0 * x[:, 2] - 1.0
+    st = np.sqrt(np.clip(1.0 - ct * ct, 0.0, None))
+    phi, chi = 2.0 * math.pi * x[:, 3], 2.0 * math.pi * x[:, 4]
+    cp, sp, cc, sc = np.cos(phi), np.sin(phi), np.cos(chi), np.sin(chi)
+    # R = Rz(phi) Ry(theta) Rz(chi): uniform over rotations for uniform cos theta, phi, chi
+    rot = np.empty((n_pts, 3, 3))
+    rot[:, 0, 0] = cp * ct * cc - sp * sc
+    rot[:, 0, 1] = -cp * ct * sc - sp * cc
+    rot[:, 0, 2] = cp * st
+    rot[:, 1, 0] = sp * ct * cc + cp * sc
+    rot[:, 1, 1] = -sp * ct * sc + cp * cc
+    rot[:, 1, 2] = sp * st
+    rot[:, 2, 0] = -st * cc
+    rot[:, 2, 1] = st * sc
+    rot[:, 2, 2] = ct
+    out = np.empty((n_pts, 3, 4))
+    out[..., 1:] = np.einsum("nij,nkj->nki", rot, body)
+    out[:, 0, 0], out[:, 1, 0], out[:, 2, 0] = e * x1, e * x2, e * x3
+    weight = np.where(inside, sqrt_s * sqrt_s / (128.0 * math.pi ** 3) * (span1 * y13) * (span2 * y23), 0.0)
     return out, weight

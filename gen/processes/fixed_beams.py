@@ -1,7 +1,8 @@
 """Processes at fixed beam energies: beams, matrix element, phase space and cuts as one integrand.
 
 `TwoToTwo` has one integration variable, the mapped cos(theta*); `ManyBody` (2 -> n, n >= 3)
-the sequential-splitting phase space on [0, 1]^(3n - 4). Both make the laboratory four-momenta of
+the sequential-splitting phase space on [0, 1]^(3n - 4), or for three light particles with a
+pair-mass cut the log-mapped pair masses of the third with the other two and the orientation. Both make the laboratory four-momenta of
 their points (incoming and outgoing, in the card's particle order); nothing here draws random
 numbers except the azimuth of a 2 -> 2 event, from the generator it is given.
 """
@@ -17,7 +18,7 @@ from ..errors import CardError
 from ..physics.constants import HBARC2_PB
 from ..physics.kinematics import AngularMap, boost_z, mandelstam_tu, mass, rapidity_of, two_body, two_body_momentum
 from ..physics.matrix.registry import choose_flows
-from ..physics.phasespace import sequential
+from ..physics.phasespace import sequential, three_massless
 from ..physics.quadrature import legendre_grid
 from ..physics.references import REFERENCES
 from . import observables
@@ -25,6 +26,9 @@ from .base import SpecProcess
 from .interface import CannotValidate, Channel, EventData, ValidationPlan
 
 __all__ = ["TwoToTwo", "ManyBody"]
+
+#: outgoing masses below this fraction of the pair-mass cut count as massless for three-body maps
+LIGHT_FRACTION = 1e-3
 
 
 class FixedBeams(SpecProcess):
@@ -180,7 +184,18 @@ class ManyBody(FixedBeams):
     def __init__(self, cfg: RunConfig):
         super().__init__(cfg)
         self.n_out = len(cfg.outgoing)
-        self.channels = (Channel("sequential splittings", 3 * self.n_out - 4),)
+        cut = cfg.cuts.get("pair_mass_min", 0.0)
+        #: three light particles with a pair-mass cut: the invariants of the canonical third (the
+        #: gluon of q qbar g) with the other two, log-mapped (`three_massless`); masses below
+        #: LIGHT_FRACTION of the cut (light quarks, whose |M|^2 is massless) are then set to zero,
+        #: in the kinematics and the record
+        self.dalitz = self.n_out == 3 and cut > 0 and all(m < LIGHT_FRACTION * cut for m in self.masses[2:])
+        self.y_min = cut * cut / self.s
+        if self.dalitz:
+            self.masses = self.masses[:2] + (0.0,) * 3
+            self.me_params = dict(self.params, **{f"m{k + 1}": self.masses[i] for k, i in enumerate(self.canonical)})
+        self.channels = (Channel("pair masses with the third, orientation" if self.dalitz else "sequential splittings",
+                                 3 * self.n_out - 4),)
         if self.cuts.active and not np.any(self.cuts.mask(self._outgoing(np.random.default_rng(0).random(
                 (20000, self.ndim)))[0])):
             raise CardError(cfg.source, "cuts", "the cuts reject every event of this process at this energy")
@@ -190,7 +205,12 @@ class ManyBody(FixedBeams):
 
     def _outgoing(self, x):
         """Outgoing momenta (N, n, 4) in the laboratory and in the centre-of-mass frame, and the phase-space weight."""
-        cm, w_ps = sequential(x, self.sqrt_s, self.masses[2:])
+        if self.dalitz:
+            gen, w_ps = three_massless(x, self.sqrt_s, self.y_min)
+            cm = np.empty_like(gen)
+            cm[:, [c - 2 for c in self.canonical[2:]]] = gen  # canonical outgoing k is card slot canonical[2 + k]
+        else:
+            cm, w_ps = sequential(x, self.sqrt_s, self.masses[2:])
         return boost_z(cm, self.y_cm), cm, w_ps
 
     def weights(self, x):
