@@ -36,7 +36,7 @@ __all__ = ["RunConfig", "Resolved", "DecayStep", "load_card", "parse_card", "par
 #: version of the card format (sections, keys and rules); written into every run record
 CARD_SCHEMA_VERSION = "2.0"
 
-SCALE_CHOICES = ("auto", "sqrt_shat", "half_ht", "pt")
+SCALE_CHOICES = ("auto", "sqrt_shat", "half_ht", "pt", "boson_mt", "jets_pt_mean")
 
 #: particles whose masses hadron collisions keep (partons, leptons and photons are massless there)
 MASSIVE_IN_HADRON_COLLISIONS = ("t", "tbar", "W+", "W-", "Z", "H")
@@ -95,7 +95,10 @@ SPEC: dict[str, dict[str, Key]] = {
     },
     "scales": {
         "renormalization": Key((str, int, float), "auto", unit="GeV", doc="scale of alpha_s: sqrt_shat, half_ht (half "
-                               "the scalar sum of the outgoing transverse masses), pt (of the first outgoing particle), a "
+                               "the scalar sum of the outgoing transverse masses), pt (of the first outgoing particle), boson_mt "
+                               "(the transverse mass sqrt(m^2 + p_T^2) of the colourless outgoing particles together: a "
+                               "W, Z or H, or the lepton pair), jets_pt_mean (the geometric mean of the p_T of the coloured "
+                               "outgoing particles, the jets at leading order), a "
                                "number in GeV within the parton set's Q range, or auto: half_ht when coloured or massive "
                                "particles come out, else sqrt_shat; dynamic scales are floored at 1 GeV"),
         "factorization": Key((str, int, float), "auto", unit="GeV", doc="scale of the parton densities (same choices)"),
@@ -592,8 +595,14 @@ def _alpha_s_reference(d: _Draft) -> None:
                       "parton set's table); set partons.alpha_s = \"one_loop\" or \"two_loop\" to run it from this value")
 
 
-@_rule("scales.renormalization and scales.factorization are one of auto, sqrt_shat, half_ht, pt, or a fixed "
-       "scale in GeV inside the parton set's Q range.")
+def _coloured(sp) -> bool:
+    """Whether an outgoing particle (or every member of a group) carries colour."""
+    return any(species(m).colour != 1 for m in sp.members) if sp.members else sp.colour != 1
+
+
+@_rule("scales.renormalization and scales.factorization are one of auto, sqrt_shat, half_ht, pt, boson_mt (needs a "
+       "colourless outgoing particle), jets_pt_mean (needs a coloured one), or a fixed scale in GeV inside the "
+       "parton set's Q range.")
 def _scales(d: _Draft) -> None:
     sc = d.sections["scales"]
     for k in ("renormalization", "factorization"):
@@ -602,6 +611,13 @@ def _scales(d: _Draft) -> None:
             if v not in SCALE_CHOICES:
                 raise d.error(path, f"{v!r} is not one of {', '.join(map(repr, SCALE_CHOICES))} or a number in GeV"
                               + close_matches(v, SCALE_CHOICES))
+            coloured = [_coloured(sp) for sp in d.outgoing]
+            if v == "boson_mt" and all(coloured):
+                raise d.error(path, "boson_mt is the transverse mass of the colourless outgoing particles, and every "
+                              "outgoing particle here is coloured; use half_ht or jets_pt_mean")
+            if v == "jets_pt_mean" and not any(coloured):
+                raise d.error(path, "jets_pt_mean is the geometric mean of the coloured outgoing particles' p_T, and "
+                              "none comes out here; use boson_mt or sqrt_shat")
             continue
         lo, hi = d.parton_set.q_range if d.parton_set else (1.0, 1e5)
         Key(NUMBER, lo=lo, hi=hi, unit="GeV").check(d.source, path, v)

@@ -112,6 +112,39 @@ def test_three_outgoing_with_hadron_beams_integrate():
     np.testing.assert_allclose(p[:, :2].sum(1), p[:, 2:].sum(1), atol=1e-6 * SQRT_S)
 
 
+@pytest.mark.parametrize("model, outgoing, cut", [
+    ("standard", ["Z", "jet"], "pt_min = 20.0"),
+    ("qcd", ["gamma", "jet"], "pt_min = 40.0"),
+])
+def test_boson_and_jet_scales_follow_their_definitions(model, outgoing, cut):
+    """scales boson_mt and jets_pt_mean recorded per event equal sqrt(m^2 + p_T^2) of the colourless
+    outgoing particles together and the geometric mean of the jets' p_T, computed from the event's
+    laboratory momenta (the definitions: common practice, no source)."""
+    sampling = "events = 10\nweighted_events = 0"
+    text = card(model, ["p", "p"], outgoing, f"sqrt_s = {SQRT_S}",
+                f'[cuts]\n{cut}\n[scales]\nrenormalization = "boson_mt"\nfactorization = "jets_pt_mean"', sampling)
+    proc = build_process(parse_card(text, "scales.toml"))
+    x = np.random.default_rng(2).random((600, proc.ndim))
+    keep = proc.weights(x) > 0
+    ev = proc.events(x[keep][:100], np.random.default_rng(1))
+    p = ev.momenta[:, 2:]
+    boson, jet = p[:, 0], p[:, 1]
+    mt = np.sqrt(boson[:, 0] ** 2 - boson[:, 3] ** 2)
+    np.testing.assert_allclose(ev.scale, mt, rtol=1e-9)
+    np.testing.assert_allclose(ev.factorization_scale, np.hypot(jet[:, 1], jet[:, 2]), rtol=1e-9)
+    assert np.ptp(ev.scale) > 1.0  # dynamic, not fixed
+
+
+@pytest.mark.parametrize("outgoing, choice, needs", [
+    (["jet", "jet"], "boson_mt", "colourless"),
+    (["e-", "e+"], "jets_pt_mean", "coloured"),
+])
+def test_a_scale_the_final_state_cannot_give_is_refused(outgoing, choice, needs):
+    text = _pp(outgoing, f'[cuts]\npt_min = 30.0\nmass_min = 50.0\n[scales]\nrenormalization = "{choice}"')
+    with pytest.raises(CardError, match=f"scales.renormalization: .*{needs}"):
+        parse_card(text, "bad.toml")
+
+
 # --- the batch, merge, Dask and validate routes ------------------------------------------------
 
 ROUTE_CARDS = {

@@ -69,6 +69,22 @@ class _PointTerms:
     norm: np.ndarray  # flux, phase space and Jacobian (pb per |M|^2 and luminosity)
 
 
+def coloured_slot(subprocesses, k: int) -> bool:
+    """Whether outgoing slot k holds a coloured particle (the same in every subprocess of a card)."""
+    return species(subprocesses[0].outgoing[k]).colour != 1
+
+
+def jet_and_boson_scales(choice: str, cm: np.ndarray, coloured: np.ndarray) -> np.ndarray:
+    """boson_mt (sqrt(E^2 - p_z^2) of the colourless outgoing particles together) or jets_pt_mean
+    (the geometric mean of the coloured ones' p_T) per point, from momenta cm (N, n, 4) in any
+    frame boosted along the beams (both are invariant under such boosts)."""
+    if choice == "boson_mt":
+        sys_ = cm[:, ~coloured].sum(axis=1)
+        return np.sqrt(np.clip(sys_[:, 0] ** 2 - sys_[:, 3] ** 2, 0.0, None))
+    pt = np.hypot(cm[:, coloured, 1], cm[:, coloured, 2])
+    return np.exp(np.log(np.maximum(pt, 1e-300)).mean(axis=1))
+
+
 class HadronCollision(Process):
     """A card with hadron beams as one integrand over its subprocesses."""
 
@@ -285,9 +301,19 @@ class HadronCollision(Process):
         return np.maximum(mu * f, 1.0)
 
     def _dynamic_scale(self, choice, shat, sin):
-        """pt or half_ht (GeV) per point of a 2 -> 2, from sin theta*."""
+        """pt, half_ht, boson_mt or jets_pt_mean (GeV) per point of a 2 -> 2, from sin theta*: both
+        particles have the same p_T; two colourless ones make a system of mass sqrt(s-hat) at rest
+        in the transverse plane."""
         pt = two_body_momentum(np.sqrt(shat), *self.m_out) * sin
-        return pt if choice == "pt" else 0.5 * sum(np.sqrt(m * m + pt * pt) for m in self.m_out)
+        if choice in ("pt", "jets_pt_mean"):
+            return pt
+        if choice == "boson_mt":
+            blind = [not coloured_slot(self.subprocesses, k) for k in range(2)]
+            if all(blind):
+                return np.sqrt(shat)
+            m = self.m_out[blind.index(True)]
+            return np.sqrt(m * m + pt * pt)
+        return 0.5 * sum(np.sqrt(m * m + pt * pt) for m in self.m_out)
 
     def _point_terms(self, x) -> _PointTerms:
         x1, x2, shat, c, omc, opc, jac = self._parton_kinematics(x)

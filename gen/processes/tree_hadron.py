@@ -31,7 +31,7 @@ from ..physics.kinematics import BreitWignerMap, PowerMap, boost_z
 from ..physics.matrix.registry import draw_index
 from ..physics.particles import species
 from ..physics.tree.amplitudes import flow_chooser
-from .hadron import HadronCollision
+from .hadron import HadronCollision, coloured_slot, jet_and_boson_scales
 from .interface import CannotValidate, Channel, EventData
 from .tree import amplitude_inputs, channel_report, propagator_structures, topologies
 
@@ -146,8 +146,11 @@ class TreeHadronProcess(HadronCollision):
 
     # --- kinematics --------------------------------------------------------------------------
     def _dynamic_scale(self, choice, shat, cm):
-        """pt (of the card's first outgoing particle) or half_ht (GeV) per point, from the
-        parton-frame momenta cm (N, n_out, 4)."""
+        """pt (of the card's first outgoing particle), half_ht, boson_mt or jets_pt_mean (GeV) per
+        point, from the parton-frame momenta cm (N, n_out, 4)."""
+        if choice in ("boson_mt", "jets_pt_mean"):
+            coloured = np.array([coloured_slot(self.subprocesses, k) for k in range(self.n_out)])
+            return jet_and_boson_scales(choice, cm, coloured)
         pt2 = cm[..., 1] ** 2 + cm[..., 2] ** 2
         if choice == "pt":
             return np.sqrt(pt2[:, 0])
