@@ -138,6 +138,21 @@ class TreeHadronProcess(HadronCollision):
         names = ", ".join(t.name for t in self.phase.topologies)
         self.channels = (Channel(f"s-hat, y; {self.phase.k} decay tree{'s' if self.phase.k > 1 else ''}: {names}",
                                  2 + self.phase.ndim),)
+        # two outgoing particles with a p_T cut and no resonance in s-hat: p_T^2, y3, y4 and the
+        # azimuth, the rapidity ranges those of the cuts where they bind (as HadronCollision does)
+        self.pt_min = float(cfg.cuts.get("pt_min", 0.0))
+        self.pt_rapidities = self.n_out == 2 and self.pt_min > 0 and not isinstance(self.shat_map, BreitWignerMap)
+        if self.pt_rapidities:
+            c = cfg.cuts
+            y_cut = min(c.get("eta_max", math.inf), c.get("rapidity_max", math.inf))
+            self.y_ranges = []
+            for i, m in enumerate(self.m_out):
+                mt_min = math.hypot(m, self.pt_min)
+                y = math.acosh(max(self.sqrt_s / (2.0 * mt_min), 1.0))
+                if i in self.cuts.selected and (m == 0.0 or c.get("rapidity_max", math.inf) < math.inf):
+                    y = min(y, y_cut if m == 0.0 else c["rapidity_max"])
+                self.y_ranges.append((-y - self.y_beams, y - self.y_beams))
+            self.channels = (Channel("p_T^2, y3, y4, phi", 4),)
 
     @staticmethod
     def _s_channel(rec) -> set[str]:
@@ -158,6 +173,8 @@ class TreeHadronProcess(HadronCollision):
 
     def _momenta(self, x):
         """(x1, x2, s-hat, parton-frame and laboratory outgoing momenta, weight of the variables)."""
+        if self.pt_rapidities:
+            return self._pt_rapidity_momenta(x)
         shat, jac_s = self.shat_map(x[:, 0], self.shat_min, self.shat_max)
         tau = shat / self.s
         ylim = -0.5 * np.log(tau)
@@ -168,6 +185,33 @@ class TreeHadronProcess(HadronCollision):
         # dtau dy = ds-hat dy / s; the flux 1 / (2 s-hat)
         norm = HBARC2_PB * jac_s / self.s * 2.0 * ylim * w_ps / (2.0 * shat)
         return sq * ey, sq / ey, shat, cm, lab, norm
+
+    def _pt_rapidity_momenta(self, x):
+        """The same from p_T^2 (density ~ p_T^-4), y3, y4 (flat) and the azimuth: with transverse
+        masses m_T,i, x1,2 = (m_T3 e^(+-y3) + m_T4 e^(+-y4)) / sqrt(s) and dx1 dx2 dt = x1 x2 dp_T^2
+        dy3 dy4, so sigma = int f1 f2 x1 x2 |M|^2 / (16 pi s-hat^2) dp_T^2 dy3 dy4 (Ellis, Stirling &
+        Webber (1996), eq. 7.6, which holds for massive particles too)."""
+        q, jac_q = PowerMap(2.0)(x[:, 0], self.pt_min ** 2, self.s / 4.0)
+        (a3, b3), (a4, b4) = self.y_ranges
+        y3, y4 = a3 + (b3 - a3) * x[:, 1], a4 + (b4 - a4) * x[:, 2]
+        phi = 2.0 * math.pi * x[:, 3]
+        pt_ = np.sqrt(q)
+        mt3, mt4 = (np.sqrt(m * m + q) for m in self.m_out)
+        x1 = (mt3 * np.exp(y3) + mt4 * np.exp(y4)) / self.sqrt_s
+        x2 = (mt3 * np.exp(-y3) + mt4 * np.exp(-y4)) / self.sqrt_s
+        shat = x1 * x2 * self.s
+        inside = (x1 < 1.0) & (x2 < 1.0) & (shat >= self.shat_min) & (shat <= self.shat_max)
+        x1, x2 = np.where(inside, x1, 0.5), np.where(inside, x2, 0.5)
+        hf = np.empty((x.shape[0], 2, 4))  # the hadrons' frame
+        for k, (mt, y, sign) in enumerate(((mt3, y3, 1.0), (mt4, y4, -1.0))):
+            hf[:, k, 0], hf[:, k, 3] = mt * np.cosh(y), mt * np.sinh(y)
+            hf[:, k, 1], hf[:, k, 2] = sign * pt_ * np.cos(phi), sign * pt_ * np.sin(phi)
+        cm = boost_z(hf, -0.5 * np.log(x1 / x2))
+        lab = boost_z(hf, np.full(x.shape[0], self.y_beams))
+        shat = x1 * x2 * self.s
+        norm = np.where(inside, HBARC2_PB * x1 * x2 * jac_q * (b3 - a3) * (b4 - a4) / (16.0 * math.pi * shat * shat),
+                        0.0)
+        return x1, x2, shat, cm, lab, norm
 
     def _parton_momenta(self, shat, cm, swapped: bool):
         n = shat.shape[0]
@@ -200,6 +244,8 @@ class TreeHadronProcess(HadronCollision):
         return _Terms(x1, x2, shat, cm, lab, mu_r, mu_f, a_s, f1, f2, me, np.where(live, norm, 0.0))
 
     def channel_report(self, nodes) -> list[dict]:
+        if self.pt_rapidities:
+            return []
         return channel_report(self, self.phase, nodes, 2,
                               lambda x: np.sqrt(self.shat_map(x[:, 0], self.shat_min, self.shat_max)[0]))
 
