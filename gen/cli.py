@@ -298,7 +298,9 @@ def _print_info(info: dict) -> None:
     unit = info["measure"]["unit"]
     print(f"{info['path']}  ({info['weighting']}, schema {info['schema_version']}, {info['program']})")
     if "subprocesses" in proc:
-        print(f"  process     {proc['label']}  [{proc['model']}], {len(proc['subprocesses'])} subprocesses")
+        shared = (f", {proc['evaluations_per_point']} distinct |M|^2 evaluations per point"
+                  if "evaluations_per_point" in proc else "")
+        print(f"  process     {proc['label']}  [{proc['model']}], {len(proc['subprocesses'])} subprocesses{shared}")
     else:
         print(f"  process     {proc['label']}  [{proc['model']}], symmetry factor {proc.get('symmetry_factor', 1):g}")
     col = info["collider"]

@@ -71,6 +71,8 @@ def test_equal_amplitudes_share_one_evaluation(monkeypatch):
     text = _pp(["t", "tbar"])
     shared = build_process(parse_card(text, "tt.toml"))
     assert len(shared.amplitudes) == 4  # u-type, d-type, b (W exchange), g g
+    # each quark amplitude in both beam orders, g g once: 7 evaluations, reported in the record
+    assert shared.record_sections()["process"]["evaluations_per_point"] == 7
     x = np.random.default_rng(2).random((300, shared.ndim))
     w = shared.weights(x)
 

@@ -432,7 +432,8 @@ class HadronCollision(Process):
         return {
             "process": {"model": cfg.model, "incoming": [p.name for p in cfg.incoming],
                         "outgoing": [p.name for p in cfg.outgoing], "label": cfg.label,
-                        "subprocesses": list(self.labels), "source": sources},
+                        "subprocesses": list(self.labels), "evaluations_per_point": len(self.evaluations),
+                        "source": sources},
             "collider": collider,
             "parameters": {"model": dict(self.params), "masses_GeV": dict(zip(names, self.masses)),
                            "widths_GeV": particle_widths(cfg, [n for n in names if not species(n).is_group])},
