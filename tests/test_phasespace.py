@@ -52,7 +52,7 @@ def test_three_massless_with_pair_cuts_has_the_cut_dalitz_volume(y_min):
     """The log-mapped three-body generator: on shell, momentum conserved, and its mean weight the
     massless three-body volume (Kleiss, Stirling & Ellis (1986), the n = 3 case above) times the
     share (1 - 3 y_min)^2 of the Dalitz triangle x1 + x2 + x3 = 2 left when every pair mass
-    exceeds y_min s (flat in x1, x2: Ellis, Stirling & Webber (1996), eq. 3.6)."""
+    exceeds y_min s (flat in x1, x2: Ellis, Stirling & Webber (1996), ch. 3; from memory)."""
     x = RNG.random((400000, 5))
     p, w = three_massless(x, 30.0, y_min)
     live = w > 0

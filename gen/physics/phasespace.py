@@ -129,7 +129,7 @@ def three_massless(x: np.ndarray, sqrt_s: float, y_min: float):
     (so that y12 = 1 - y13 - y23 >= y_min), each mapped logarithmically (density ~ 1/y, the
     1/(y13 y23) of the singularities); then the orientation as Euler angles (cos theta, phi, chi), uniform. The massless
     three-body phase space is dPhi_3 = s/(128 pi^3) dx1 dx2 dOmega dchi/(8 pi^2) with x_i = 2E_i/sqrt(s),
-    x1 = 1 - y23, x2 = 1 - y13 (Ellis, Stirling & Webber (1996), eq. 3.6; Byckling & Kajantie,
+    x1 = 1 - y23, x2 = 1 - y13 (Ellis, Stirling & Webber (1996), ch. 3, from memory; Byckling & Kajantie,
     Particle Kinematics (1973), ch. V).
     """
     if y_min <= 0.0:

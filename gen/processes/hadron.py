@@ -206,14 +206,21 @@ class HadronCollision(Process):
         self.pt_rapidities = (self.pt_min > 0 and all(m == 0.0 for m in self.m_out)
                               and not isinstance(self.shat_map, BreitWignerMap))
         if self.pt_rapidities:
-            c = self.cfg.cuts
-            y_kin = math.acosh(max(self.sqrt_s / (2.0 * self.pt_min), 1.0))
-            y_cut = min(c.get("eta_max", math.inf), c.get("rapidity_max", math.inf))
-            self.y_ranges = []
-            for i in range(2):  # rapidities in the hadrons' frame; the cuts are on laboratory ones
-                y = min(y_cut, y_kin) if i in self.cuts.selected else y_kin
-                self.y_ranges.append((-y - self.y_beams, y - self.y_beams))
+            self.y_ranges = self.rapidity_ranges()
             self.channels = (Channel("p_T^2, y3, y4", 3),)
+
+    def rapidity_ranges(self) -> list[tuple[float, float]]:
+        """The rapidity range (in the hadrons' frame) of each of two outgoing particles with a p_T
+        cut: as far as x <= 1 allows at the cut (acosh(sqrt(s) / 2 m_T)), narrowed to the card's
+        rapidity cut, and for a massless particle its pseudorapidity cut, where they apply."""
+        c = self.cfg.cuts
+        out = []
+        for i, m in enumerate(self.m_out):
+            y = math.acosh(max(self.sqrt_s / (2.0 * math.hypot(m, self.pt_min)), 1.0))
+            if i in self.cuts.selected:
+                y = min(y, c.get("rapidity_max", math.inf), c.get("eta_max", math.inf) if m == 0.0 else math.inf)
+            out.append((-y - self.y_beams, y - self.y_beams))  # the cuts are on laboratory rapidities
+        return out
 
     # --- kinematics --------------------------------------------------------------------------
     def _parton_kinematics(self, x):
@@ -248,8 +255,8 @@ class HadronCollision(Process):
     def _pt_rapidity_kinematics(self, x):
         """The same for a massless pair from p_T^2 (density ~ p_T^-4), y3 and y4 (flat):
         x1,2 = p_T (e^(+-y3) + e^(+-y4)) / sqrt(s), cos theta* = tanh((y3 - y4)/2), and
-        dtau dy dcos = 2 x1 x2 / s-hat dp_T^2 dy3 dy4 (Ellis, Stirling & Webber (1996), eq. 7.6;
-        dcos = 2 dt / s-hat). Points beyond x = 1 or the card's pair-mass range weigh nothing."""
+        dtau dy dcos = 2 x1 x2 / s-hat dp_T^2 dy3 dy4 (the two-jet cross-section of Ellis, Stirling &
+        Webber (1996), ch. 7, from memory; dcos = 2 dt / s-hat). Points beyond x = 1 or the card's pair-mass range weigh nothing."""
         q, jac_q = PowerMap(2.0)(x[:, 0], self.pt_min ** 2, self.s / 4.0)
         (a3, b3), (a4, b4) = self.y_ranges
         y3 = a3 + (b3 - a3) * x[:, 1]

@@ -143,15 +143,7 @@ class TreeHadronProcess(HadronCollision):
         self.pt_min = float(cfg.cuts.get("pt_min", 0.0))
         self.pt_rapidities = self.n_out == 2 and self.pt_min > 0 and not isinstance(self.shat_map, BreitWignerMap)
         if self.pt_rapidities:
-            c = cfg.cuts
-            y_cut = min(c.get("eta_max", math.inf), c.get("rapidity_max", math.inf))
-            self.y_ranges = []
-            for i, m in enumerate(self.m_out):
-                mt_min = math.hypot(m, self.pt_min)
-                y = math.acosh(max(self.sqrt_s / (2.0 * mt_min), 1.0))
-                if i in self.cuts.selected and (m == 0.0 or c.get("rapidity_max", math.inf) < math.inf):
-                    y = min(y, y_cut if m == 0.0 else c["rapidity_max"])
-                self.y_ranges.append((-y - self.y_beams, y - self.y_beams))
+            self.y_ranges = self.rapidity_ranges()
             self.channels = (Channel("p_T^2, y3, y4, phi", 4),)
 
     @staticmethod
@@ -190,7 +182,8 @@ class TreeHadronProcess(HadronCollision):
         """The same from p_T^2 (density ~ p_T^-4), y3, y4 (flat) and the azimuth: with transverse
         masses m_T,i, x1,2 = (m_T3 e^(+-y3) + m_T4 e^(+-y4)) / sqrt(s) and dx1 dx2 dt = x1 x2 dp_T^2
         dy3 dy4, so sigma = int f1 f2 x1 x2 |M|^2 / (16 pi s-hat^2) dp_T^2 dy3 dy4 (Ellis, Stirling &
-        Webber (1996), eq. 7.6, which holds for massive particles too)."""
+        Webber (1996), ch. 7, from memory; the Jacobian holds for massive particles too, checked
+        numerically)."""
         q, jac_q = PowerMap(2.0)(x[:, 0], self.pt_min ** 2, self.s / 4.0)
         (a3, b3), (a4, b4) = self.y_ranges
         y3, y4 = a3 + (b3 - a3) * x[:, 1], a4 + (b4 - a4) * x[:, 2]
