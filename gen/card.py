@@ -84,6 +84,11 @@ SPEC: dict[str, dict[str, Key]] = {
         "rapidity_max": Key(NUMBER, math.inf, 0.0, 1e3, "", "largest |rapidity| in the laboratory, each particle",
                             allow_inf=True, lo_open=True),
         "delta_r_min": Key(NUMBER, 0.0, 0.0, 100.0, "", "smallest Delta R = sqrt(Delta eta^2 + Delta phi^2) of every pair of selected particles"),
+        "sum_pt_min": Key(NUMBER, 0.0, 0.0, 1e9, "GeV", "smallest transverse momentum of the selected particles "
+                          "together (of the neutrinos: the missing transverse momentum)"),
+        "sets": Key(list, doc="further sets of cuts, [[cuts.sets]] tables, each with its own particles (required) and "
+                    "any keys of [cuts]: an event passes [cuts] and every set (jets, leptons, photons or missing "
+                    "momentum cut apart; a delta_r_min on jets and leptons together separates them)"),
     },
     "partons": {
         "set": Key(str, _pdf.DEFAULT_SET, doc="parton-density set: a name searched in LHAPDF_DATA_PATH and the sets shipped "
@@ -524,51 +529,95 @@ def _tree_subprocesses(d: _Draft, tree, masses) -> None:
             _infrared(d, tree.singular_lines(d.model.automatic, ab, outs, params, masses))
 
 
-def _infrared(d: _Draft, lines) -> None:
-    """The cuts that keep an automatic process away from its soft and collinear singularities."""
+def cut_sets(d: _Draft) -> list[dict]:
+    """[cuts] and each [[cuts.sets]] table, validated like [cuts] (defaults filled in, particle
+    names resolved); the sets are stored back into cuts.sets in that form."""
     cuts = d.sections["cuts"]
+    raw = cuts.get("sets", [])
+    if getattr(d, "_cut_sets", None) is None:
+        spec = {k: v for k, v in SPEC["cuts"].items() if k != "sets"}
+        spec["particles"] = Key(list, required=True, doc=SPEC["cuts"]["particles"].doc)
+        done = []
+        for i, table in enumerate(raw):
+            path = f"cuts.sets[{i}]"
+            if not isinstance(table, dict):
+                raise d.error(path, f"expected a table of cuts with its particles, found {table!r}")
+            one = _keys_of(d, path, table, spec)
+            _check_cut_table(d, one, path)
+            done.append(one)
+        if raw:
+            cuts["sets"] = done
+        d._cut_sets = done
+    return [cuts] + d._cut_sets
+
+
+def _infrared(d: _Draft, lines) -> None:
+    """The cuts that keep an automatic process away from its soft and collinear singularities:
+    each singular region needs a cut of [cuts] or of one set that covers all its particles."""
     outgoing = [p.name for p in d.outgoing]
-    chosen = set(cuts.get("particles", outgoing))
     n_in = len(d.incoming)
-    theta = cuts["theta_min_deg"] > 0.0 and cuts["theta_max_deg"] < 180.0
+    tables = cut_sets(d)
     for kind, legs in lines:
         names = [outgoing[i - n_in] for i in legs if i >= n_in]
-        covered = all(n in chosen for n in names)
-        if kind == "final" and not (covered and (cuts["pair_mass_min"] > 0.0 or cuts["delta_r_min"] > 0.0)):
-            raise d.error("cuts.pair_mass_min", f"{d.label} is singular where the pair mass of {' and '.join(names)} goes to zero "
-                          "(a massless line joins them: collinear or soft); set cuts.pair_mass_min (or cuts.delta_r_min) on them, for "
-                          "example pair_mass_min = 10")
-        if kind == "initial" and not (covered and (cuts["pt_min"] > 0.0 or theta)):
-            raise d.error("cuts.pt_min", f"{d.label} is singular where {names[0]} goes along a beam (a massless line "
-                          "exchanged with the beam particle); set cuts.pt_min (or theta_min_deg and theta_max_deg) on "
-                          f"it, for example pt_min = 5")
-        # a pair-mass cut keeps a soft particle away too, when it pairs with a massless one
-        paired = cuts["pair_mass_min"] > 0.0 and sum(1 for n in outgoing if n in chosen and _mass(d, n) == 0.0) >= 2
-        if kind == "soft" and not (covered and (cuts["pt_min"] > 0.0 or cuts["energy_min"] > 0.0 or paired)):
-            raise d.error("cuts.energy_min", f"{d.label} is singular where the {names[0]} becomes soft; set "
-                          "cuts.energy_min (or cuts.pt_min, or cuts.pair_mass_min with a massless partner) on it, "
-                          "for example energy_min = 5")
+        if not any(_covers(d, cuts, kind, names, outgoing) for cuts in tables):
+            _missing_cut(d, kind, names)
 
 
-@_rule("cuts.particles names outgoing particles of the process (at least one); each minimum is below its maximum.")
+def _covers(d: _Draft, cuts: dict, kind: str, names: list[str], outgoing: list[str]) -> bool:
+    chosen = set(cuts.get("particles", outgoing))
+    if not all(n in chosen for n in names):
+        return False
+    if kind == "final":
+        # a mass cut on exactly these two bounds their pair mass too
+        pair_only = cuts["mass_min"] > 0.0 and sorted(cuts.get("particles", outgoing)) == sorted(names)
+        return cuts["pair_mass_min"] > 0.0 or cuts["delta_r_min"] > 0.0 or pair_only
+    if kind == "initial":
+        return cuts["pt_min"] > 0.0 or (cuts["theta_min_deg"] > 0.0 and cuts["theta_max_deg"] < 180.0)
+    # a pair-mass cut keeps a soft particle away too, when it pairs with a massless one
+    paired = cuts["pair_mass_min"] > 0.0 and sum(1 for n in outgoing if n in chosen and _mass(d, n) == 0.0) >= 2
+    return cuts["pt_min"] > 0.0 or cuts["energy_min"] > 0.0 or paired
+
+
+def _missing_cut(d: _Draft, kind: str, names: list[str]) -> None:
+    where = " ([cuts] or a [[cuts.sets]] table that selects them)"
+    if kind == "final":
+        raise d.error("cuts.pair_mass_min", f"{d.label} is singular where the pair mass of {' and '.join(names)} goes "
+                      "to zero (a massless line joins them: collinear or soft); set cuts.pair_mass_min (or "
+                      f"cuts.delta_r_min) on them{where}, for example pair_mass_min = 10")
+    if kind == "initial":
+        raise d.error("cuts.pt_min", f"{d.label} is singular where {names[0]} goes along a beam (a massless line "
+                      "exchanged with the beam particle); set cuts.pt_min (or theta_min_deg and theta_max_deg) on "
+                      f"it{where}, for example pt_min = 5")
+    raise d.error("cuts.energy_min", f"{d.label} is singular where the {names[0]} becomes soft; set "
+                  "cuts.energy_min (or cuts.pt_min, or cuts.pair_mass_min with a massless partner) on it"
+                  f"{where}, for example energy_min = 5")
+
+
+@_rule("cuts.particles names outgoing particles of the process (at least one); each minimum is below its maximum; "
+       "each [[cuts.sets]] table names its particles and holds keys of [cuts].")
 def _cut_keys(d: _Draft) -> None:
-    cuts = d.sections["cuts"]
+    _check_cut_table(d, d.sections["cuts"], "cuts")
+    cut_sets(d)
+
+
+def _check_cut_table(d: _Draft, cuts: dict, path: str) -> None:
+    """The particles of one table of cuts resolved to outgoing particles, and its ranges ordered."""
     if "particles" in cuts:
         chosen = cuts["particles"]
         if not chosen:
-            raise d.error("cuts.particles", "is empty, which would drop every cut; leave the key out to cut on every "
-                          "outgoing particle")
-        names = [lookup(tok, d.source, f"cuts.particles[{i}]").name for i, tok in enumerate(chosen)]
+            raise d.error(f"{path}.particles", "is empty, which would drop every cut; leave the key out to cut on "
+                          "every outgoing particle" if path == "cuts" else "is empty; name the particles this set cuts")
+        names = [lookup(tok, d.source, f"{path}.particles[{i}]").name for i, tok in enumerate(chosen)]
         outgoing = [p.name for p in d.outgoing]
         for i, name in enumerate(names):
             if name not in outgoing:
-                raise d.error(f"cuts.particles[{i}]", f"{name!r} is not an outgoing particle of the process; "
+                raise d.error(f"{path}.particles[{i}]", f"{name!r} is not an outgoing particle of the process; "
                               "outgoing: " + ", ".join(outgoing))
         cuts["particles"] = names
     for lo, hi in (("theta_min_deg", "theta_max_deg"), ("energy_min", "energy_max"),
                    ("pt_min", "pt_max"), ("mass_min", "mass_max")):
         if cuts[lo] >= cuts[hi]:
-            raise d.error(f"cuts.{lo}", f"{cuts[lo]!r} is not below cuts.{hi} = {cuts[hi]!r}")
+            raise d.error(f"{path}.{lo}", f"{cuts[lo]!r} is not below {path}.{hi} = {cuts[hi]!r}")
 
 
 @_rule("partons.set names a set that exists (in LHAPDF_DATA_PATH, among the shipped sets, or as a folder) with a "
@@ -705,15 +754,17 @@ def _slot_masses(d: _Draft) -> list[float]:
 
 
 def _tree_hadron_kinematics(d: _Draft) -> None:
-    """s-hat from the slots' transverse masses at the p_T cut (and the mass cut on all of them) to s."""
+    """s-hat from the slots' transverse masses at their p_T cuts, or the square of a mass cut on some
+    of them (the mass of a subset is at most sqrt(s-hat)), to s; [cuts] and every set count."""
     cuts = d.sections["cuts"]
     s = _hadron_beams(d)
     slot_masses = _slot_masses(d)
-    selected = cuts.get("particles", [p.name for p in d.outgoing])
-    pt_min = float(cuts["pt_min"])
-    shat_min = sum(math.hypot(m, pt_min if p.name in selected else 0.0) for m, p in zip(slot_masses, d.outgoing)) ** 2
-    if len(selected) == len(d.outgoing):
-        shat_min = max(shat_min, cuts["mass_min"] ** 2)
+    names = [p.name for p in d.outgoing]
+    tables = cut_sets(d)
+    pt_of = [max([float(t["pt_min"]) for t in tables if n in t.get("particles", names)], default=0.0) for n in names]
+    shat_min = sum(math.hypot(m, pt) for m, pt in zip(slot_masses, pt_of)) ** 2
+    shat_min = max([shat_min] + [t["mass_min"] ** 2 for t in tables])
+    selected = cuts.get("particles", names)
     shat_max = min(s, cuts["mass_max"] ** 2) if len(selected) == len(d.outgoing) else s
     if shat_min <= 0.0:
         raise d.error("cuts.pt_min", f"{d.label} has massless particles only: give cuts.pt_min (for example 20 GeV) or "

@@ -211,3 +211,77 @@ def test_automatic_cards_go_through_batch_merge_dask_and_validate(name, tmp_path
     assert main(["validate", str(tmp_path / "one"), "--no-plots"]) == 2
     err = capsys.readouterr().err
     assert "gen validate" in err and err.count("\n") == 1
+
+
+# --- cuts per group: [[cuts.sets]] -------------------------------------------------------------
+
+Z_JET_CUTS = """[cuts]
+particles = ["jet"]
+pt_min = 30.0
+eta_max = 2.5
+[[cuts.sets]]
+particles = ["e-", "e+"]
+pt_min = 20.0
+eta_max = 2.5
+mass_min = 66.0
+mass_max = 116.0
+sum_pt_min = 10.0
+[[cuts.sets]]
+particles = ["e-", "e+", "jet"]
+delta_r_min = 0.4
+"""
+
+
+def test_cut_sets_cut_each_group_on_its_own():
+    """A Z + jet card's cuts -- jet p_T and |eta|; lepton p_T, |eta|, pair-mass window and pair p_T;
+    Delta R between all three -- against the same definitions written out here (common practice,
+    no source) on random momenta."""
+    from gen.processes.cuts import Cuts
+
+    cfg = parse_card(_pp(["e-", "e+", "jet"], Z_JET_CUTS), "zj.toml")
+    rng = np.random.default_rng(4)
+    n = 20000
+    pt_ = rng.uniform(5.0, 80.0, (n, 3))
+    eta = rng.uniform(-3.5, 3.5, (n, 3))
+    phi = rng.uniform(-math.pi, math.pi, (n, 3))
+    p = np.stack([pt_ * np.cosh(eta), pt_ * np.cos(phi), pt_ * np.sin(phi), pt_ * np.sinh(eta)], axis=-1)
+    got = Cuts(cfg).mask(p)
+    ll = p[:, 0] + p[:, 1]
+    m_ll = np.sqrt(np.clip(ll[:, 0] ** 2 - (ll[:, 1:] ** 2).sum(-1), 0.0, None))
+    dphi = lambda a, b: np.abs((phi[:, a] - phi[:, b] + math.pi) % (2 * math.pi) - math.pi)  # noqa: E731
+    dr = [np.hypot(eta[:, a] - eta[:, b], dphi(a, b)) for a, b in ((0, 1), (0, 2), (1, 2))]
+    want = ((pt_[:, 2] >= 30.0) & (np.abs(eta[:, 2]) <= 2.5)
+            & np.all(pt_[:, :2] >= 20.0, axis=1) & np.all(np.abs(eta[:, :2]) <= 2.5, axis=1)
+            & (m_ll >= 66.0) & (m_ll <= 116.0) & (np.hypot(ll[:, 1], ll[:, 2]) >= 10.0)
+            & np.all([d >= 0.4 for d in dr], axis=0))
+    assert np.array_equal(got, want)
+    assert 50 < want.sum() < n - 50  # the cuts bind both ways
+
+
+@pytest.mark.parametrize("extra, key, text", [
+    ('[[cuts.sets]]\npt_min = 20.0\n', "cuts.sets[0].particles", "missing; required"),
+    ('[[cuts.sets]]\nparticles = ["mu-"]\npt_min = 20.0\n', "cuts.sets[0].particles[0]", "not an outgoing particle"),
+    ('[[cuts.sets]]\nparticles = ["jet"]\npt_minimum = 20.0\n', "cuts.sets[0].pt_minimum", "unknown key"),
+    ('[cuts]\nparticles = ["e-", "e+"]\nmass_min = 60.0\n[[cuts.sets]]\nparticles = ["e-"]\npt_min = 20.0\n',
+     "cuts.pt_min",
+     "[[cuts.sets]] table that selects them"),
+])
+def test_cut_set_errors_name_the_key(extra, key, text):
+    """A set without particles, with a particle the process does not make, with a key [cuts] does
+    not have; a jet with no p_T cut in [cuts] or any set: each refused naming its key."""
+    with pytest.raises(CardError) as err:
+        parse_card(_pp(["e-", "e+", "jet"], extra), "bad.toml")
+    assert f": {key}:" in str(err.value) and text in str(err.value)
+
+
+def test_a_jet_cut_in_a_set_keeps_the_process_infrared_safe():
+    """The jet's p_T cut may sit in a set rather than in [cuts]: the card is accepted and its
+    weights vanish wherever the jet is softer than the cut."""
+    text = _pp(["e-", "e+", "jet"], '[cuts]\nparticles = ["e-", "e+"]\nmass_min = 66.0\nmass_max = 116.0\n'
+               '[[cuts.sets]]\nparticles = ["jet"]\npt_min = 30.0\n', "events = 10\nweighted_events = 0")
+    proc = build_process(parse_card(text, "zj.toml"))
+    x = np.random.default_rng(3).random((3000, proc.ndim))
+    d = proc._terms(x)
+    w = proc.weights(x)
+    jet_pt = np.hypot(d.lab[:, 2, 1], d.lab[:, 2, 2])
+    assert np.all(w[jet_pt < 30.0] == 0.0) and np.count_nonzero(w) > 20

@@ -460,7 +460,7 @@ class HadronCollision(Process):
         cfg = self.cfg
         scales = cfg.scales
         drell_yan = self.n_out == 2 and all(sub.spec.resonance == ("m_Z", "width_Z") for sub in self.subprocesses)
-        only_mass_cuts = all(cfg.cuts[k] == v for k, v in CUT_DEFAULTS.items()
+        only_mass_cuts = all(cfg.cuts.get(k, v) == v for k, v in CUT_DEFAULTS.items()
                              if k not in ("mass_min", "mass_max", "particles")) and "particles" not in cfg.cuts
         if not (drell_yan and only_mass_cuts and scales["factorization"] in ("auto", "sqrt_shat")
                 and scales["factor"] == 1 and self.y_beams == 0.0):
