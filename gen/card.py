@@ -276,6 +276,8 @@ class _Draft:
         self.parton_set = None
         self.steps: list[DecayStep] = []
         self.decay_spins = "isotropic"
+        #: the [[cuts.sets]] tables once validated (see `cut_sets`)
+        self.cut_tables: list[dict] | None = None
 
     def error(self, key: str, message: str) -> CardError:
         return CardError(self.source, key, message)
@@ -534,7 +536,7 @@ def cut_sets(d: _Draft) -> list[dict]:
     names resolved); the sets are stored back into cuts.sets in that form."""
     cuts = d.sections["cuts"]
     raw = cuts.get("sets", [])
-    if getattr(d, "_cut_sets", None) is None:
+    if d.cut_tables is None:
         spec = {k: v for k, v in SPEC["cuts"].items() if k != "sets"}
         spec["particles"] = Key(list, required=True, doc=SPEC["cuts"]["particles"].doc)
         done = []
@@ -547,8 +549,8 @@ def cut_sets(d: _Draft) -> list[dict]:
             done.append(one)
         if raw:
             cuts["sets"] = done
-        d._cut_sets = done
-    return [cuts] + d._cut_sets
+        d.cut_tables = done
+    return [cuts] + d.cut_tables
 
 
 def _infrared(d: _Draft, lines) -> None:
@@ -645,7 +647,7 @@ def _alpha_s_reference(d: _Draft) -> None:
 
 
 def _coloured(sp) -> bool:
-    """Whether an outgoing particle (or every member of a group) carries colour."""
+    """Whether an outgoing particle (or a member of a group) carries colour."""
     return any(species(m).colour != 1 for m in sp.members) if sp.members else sp.colour != 1
 
 
