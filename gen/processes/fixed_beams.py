@@ -2,9 +2,10 @@
 
 `TwoToTwo` has one integration variable, the mapped cos(theta*); `ManyBody` (2 -> n, n >= 3)
 the sequential-splitting phase space on [0, 1]^(3n - 4), or for three light particles with a
-pair-mass cut the log-mapped pair masses of the third with the other two and the orientation. Both make the laboratory four-momenta of
-their points (incoming and outgoing, in the card's particle order); nothing here draws random
-numbers except the azimuth of a 2 -> 2 event, from the generator it is given.
+pair-mass cut the log-mapped pair masses of the third with the other two and the orientation.
+Both make the laboratory four-momenta of their points (incoming and outgoing, in the card's
+particle order); nothing here draws random numbers except the azimuth of a 2 -> 2 event, from
+the generator it is given.
 """
 
 from __future__ import annotations
