@@ -98,3 +98,38 @@ def test_massive_three_body_against_the_dalitz_area(maps):
     q, ws = sequential(RNG.random((300000, 5)), 10.0, ms, maps)
     _check_momenta(q, 10.0, ms)
     assert abs(ws.mean() - exact) < 5 * ws.std() / math.sqrt(ws.size), (ws.mean(), exact)
+
+
+def _volume_with_pt_cut(sqrt_s: float, pt_min: float) -> float:
+    """Massless Phi_3 with p_T(particle 0) > pt_min about the z axis, by scipy: the factorization
+    dPhi_3 = dPhi_2(s; 0, m23) ds23 / (2 pi) dPhi_2(s23; 0, 0) with Phi_2(s; 0, m) = (1 - m^2/s) / (8 pi)
+    (common practice, no source), the polar angle of particle 0 flat in cos theta, so that the share
+    with p* sin theta > pt_min is sqrt(1 - pt_min^2 / p*^2)."""
+    s = sqrt_s**2
+
+    def integrand(s23):
+        pstar = (s - s23) / (2 * sqrt_s)
+        share = math.sqrt(1 - (pt_min / pstar) ** 2) if pstar > pt_min else 0.0
+        return (1 - s23 / s) / (8 * math.pi) * share / (8 * math.pi) / (2 * math.pi)
+    return quad(integrand, 0.0, s, epsrel=1e-11, points=[s - 2 * sqrt_s * pt_min])[0]
+
+
+@pytest.mark.parametrize("pt_min", [5.0, 20.0, 45.0])
+def test_the_pseudorapidity_root_map_keeps_the_cut_volume(pt_min):
+    """A decay tree whose root splitting draws eta* flat inside the p_T cut: every point it makes
+    passes the cut, its mean weight is the cut volume (scipy above), and its density is 1/weight."""
+    from gen.physics.channels import Node, Topology
+    top = Topology(Node((0, 1, 2), (0, Node((1, 2), (1, 2)))), [0.0] * 3, root_pt_min=pt_min)
+    p, w = top.generate(RNG.random((300000, top.ndim)), 100.0)
+    live = w > 0
+    _check_momenta(p[live], 100.0, [0.0] * 3)
+    assert np.hypot(p[live, 0, 1], p[live, 0, 2]).min() >= pt_min * (1 - 1e-9)
+    exact = _volume_with_pt_cut(100.0, pt_min)
+    assert abs(w.mean() - exact) < 5 * w.std() / math.sqrt(w.size), (w.mean(), exact)
+    assert w.std() / math.sqrt(w.size) < 0.01 * exact
+    np.testing.assert_allclose(top.density(p[live], 100.0) * w[live], 1.0, rtol=1e-8)
+    # the same cut applied after a flat polar angle: the same volume within errors
+    flat = Topology(top.root, [0.0] * 3)
+    q, v = flat.generate(RNG.random((300000, flat.ndim)), 100.0)
+    v = np.where(np.hypot(q[:, 0, 1], q[:, 0, 2]) > pt_min, v, 0.0)
+    assert abs(v.mean() - exact) < 5 * v.std() / math.sqrt(v.size)

@@ -8,6 +8,12 @@ with a lower bound from the cuts, flat otherwise) and each splitting's angles fl
 frame, so that dPhi_n = prod_nodes ds/(2 pi) x prod_splittings p*/(4 pi M) dOmega/(4 pi); there are
 3n - 4 variables (n - 2 masses, then two angles per splitting), as for `sequential`.
 
+At hadron colliders the root splitting (in the parton frame, the z axis along the beams) may
+instead draw its polar angle through the pseudorapidity eta* = atanh(cos theta) of its first part,
+flat within the range where the parts' common p_T = p* / cosh(eta*) stays above a cut
+(`Topology.root_pt_min`): the density in cos theta then goes as 1 / sin^2 theta, the shape of a
+t- and u-channel exchange, and no point falls below the p_T cut of a single particle there.
+
 `MultiChannel` combines topologies (Kleiss & Pittau, Comput. Phys. Commun. 83 (1994) 141): an
 extra variable picks a channel i with probability alpha_i, the point is made by that channel, and
 its weight is f / sum_j alpha_j g_j with g_j the density of channel j at the same momenta, which
@@ -22,7 +28,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .kinematics import FlatMap, mass, two_body_decay
+from .kinematics import BreitWignerMap, FlatMap, PowerMap, mass, two_body_decay
 
 __all__ = ["Node", "Topology", "MultiChannel"]
 
@@ -51,8 +57,10 @@ def _leaves(c) -> tuple[int, ...]:
 class Topology:
     """One decay tree over n outgoing particles with masses `masses` (GeV)."""
 
-    def __init__(self, root: Node, masses, name: str = ""):
+    def __init__(self, root: Node, masses, name: str = "", root_pt_min: float = 0.0):
         self.root = root
+        #: the p_T bound (GeV) of the root splitting's parts, 0 for a flat polar angle there
+        self.root_pt_min = float(root_pt_min)
         self.masses = np.asarray(masses, float)
         self.n = self.masses.size
         self.name = name or self.describe()
@@ -65,9 +73,19 @@ class Topology:
         self.ndim = 3 * self.n - 4
 
     def describe(self) -> str:
-        def d(c):
-            return str(c) if isinstance(c, int) else "(" + " ".join(d(x) for x in c.children) + ")"
-        return d(self.root)
+        """The tree as nested parentheses of outgoing slots; an internal node's mass map follows
+        it: "~91.2" for a resonance of that mass, "/s" for a 1/s (massless-line) map."""
+        def tag(c):
+            smap = c.smap
+            if isinstance(smap, BreitWignerMap):
+                return f"~{smap.mass:.4g}"
+            return "/s" if isinstance(smap, PowerMap) else ""
+
+        def d(c, top=False):
+            if isinstance(c, int):
+                return str(c)
+            return "(" + " ".join(d(x) for x in c.children) + ")" + ("" if top else tag(c))
+        return d(self.root, top=True)
 
     def _min_mass(self, c) -> float:
         return float(self.masses[list(_leaves(c))].sum())
@@ -79,6 +97,14 @@ class Topology:
         c = node.children[k]
         sib = ms[0] if k == 1 else np.full(n_pts, self._min_mass(node.children[0 if k else 1]))
         return max(self._min_mass(c) ** 2, c.s_min), (m_parent - sib) ** 2
+
+    def _eta_max(self, m_parent, m1, m2) -> np.ndarray:
+        """The |eta*| bound of the root splitting: acosh(p* / root_pt_min), 0 where p* is below it
+        (the point then has zero weight)."""
+        safe = np.where(m_parent > 0, m_parent, 1.0)
+        a, b = m1 / safe, m2 / safe
+        pstar = safe * np.sqrt(np.clip((1.0 - (a + b) ** 2) * (1.0 - (a - b) ** 2), 0.0, None)) / 2.0
+        return np.arccosh(np.maximum(pstar / self.root_pt_min, 1.0))
 
     def generate(self, x: np.ndarray, sqrt_s):
         """Momenta (N, n, 4) in the centre-of-mass frame of energy sqrt_s (a number, or one per
@@ -105,7 +131,12 @@ class Topology:
                 mcol += 1
                 weight = np.where(ok, weight * jac / (2.0 * math.pi), 0.0)
                 ms.append(np.sqrt(np.maximum(s, 0.0)))
-            cos_t = 2.0 * x[:, acol] - 1.0
+            if node is self.root and self.root_pt_min > 0.0:
+                eta_max = self._eta_max(m_parent, ms[0], ms[1])
+                cos_t = np.tanh(eta_max * (2.0 * x[:, acol] - 1.0))
+                weight = weight * eta_max * (1.0 - cos_t * cos_t)
+            else:
+                cos_t = 2.0 * x[:, acol] - 1.0
             phi = 2.0 * math.pi * x[:, acol + 1]
             acol += 2
             p1, p2, ratio = two_body_decay(moms[id(node)], m_parent, ms[0], ms[1], cos_t, phi)
@@ -140,6 +171,13 @@ class Topology:
             a, b = ms[0] / m_parent, ms[1] / m_parent
             ratio = np.sqrt(np.clip((1.0 - (a + b) ** 2) * (1.0 - (a - b) ** 2), 0.0, None)) / 2.0
             w = w * ratio / (4.0 * math.pi)
+            if node is self.root and self.root_pt_min > 0.0:
+                first = p[:, list(_leaves(node.children[0]))].sum(axis=1)
+                pabs = np.sqrt((first[:, 1:] ** 2).sum(axis=1))
+                cos_t = np.divide(first[:, 3], pabs, out=np.zeros(n_pts), where=pabs > 0)
+                eta_max = self._eta_max(m_parent, ms[0], ms[1])
+                inside = np.abs(np.arctanh(np.clip(cos_t, -1.0, 1.0))) <= eta_max
+                w = np.where(inside, w * eta_max * (1.0 - cos_t * cos_t), 0.0)
         with np.errstate(divide="ignore"):
             return np.where(w > 0, 1.0 / np.where(w > 0, w, 1.0), 0.0)
 
