@@ -22,6 +22,26 @@ class Cuts:
         self.sets = [(table, _selected(cfg, table)) for table in cfg.cuts.get("sets", ())]
         self.active = _is_active(self.values) or any(_is_active(t) for t, _ in self.sets)
 
+    def tables(self, slot: int):
+        """The tables of cuts (the [cuts] values and each of [[cuts.sets]]) that select outgoing slot."""
+        return [t for t, sel in [(self.values, self.selected)] + self.sets if slot in sel]
+
+    def lower(self, key: str, slot: int) -> float:
+        """The tightest lower bound `key` (pt_min, say) that any table puts on outgoing slot."""
+        return max((float(t[key]) for t in self.tables(slot) if key in t), default=0.0)
+
+    def upper(self, key: str, slot: int) -> float:
+        """The tightest upper bound `key` (eta_max, say) that any table puts on outgoing slot."""
+        return min((float(t[key]) for t in self.tables(slot) if key in t), default=math.inf)
+
+    def pair_s_min(self, legs) -> float:
+        """The smallest invariant mass squared (GeV^2) that the cuts allow the outgoing slots `legs`
+        together: the tightest pair_mass_min of the tables that select both of a pair, else 0."""
+        if len(legs) != 2:
+            return 0.0
+        both = [t for t in self.tables(legs[0]) if any(t is u for u in self.tables(legs[1]))]
+        return max((float(t["pair_mass_min"]) ** 2 for t in both), default=0.0)
+
     def mask(self, out: np.ndarray) -> np.ndarray:
         """True for events whose outgoing laboratory momenta out (N, n, 4) pass the cuts."""
         if not self.active:

@@ -190,7 +190,8 @@ class HadronCollision(Process):
             self.tau_fixed = self.m_res**2 / self.s
             return
         self.shat_min, self.shat_max = res.shat_range
-        self.pt_min = float(self.cfg.cuts["pt_min"])
+        # the common p_T of two outgoing particles: the tighter of their cuts, in any table
+        self.pt_min = max(self.cuts.lower("pt_min", k) for k in range(self.n_out))
         self.poles = "both" if any(s.poles != "none" for s in specs) else "none"
         self.pole_power = max((s.pole_power for s in specs if s.poles != "none"), default=2)
         # a Breit-Wigner map when every subprocess has the same s-channel resonance inside the range
@@ -213,12 +214,10 @@ class HadronCollision(Process):
         """The rapidity range (in the hadrons' frame) of each of two outgoing particles with a p_T
         cut: as far as x <= 1 allows at the cut (acosh(sqrt(s) / 2 m_T)), narrowed to the card's
         rapidity cut, and for a massless particle its pseudorapidity cut, where they apply."""
-        c = self.cfg.cuts
         out = []
         for i, m in enumerate(self.m_out):
             y = math.acosh(max(self.sqrt_s / (2.0 * math.hypot(m, self.pt_min)), 1.0))
-            if i in self.cuts.selected:
-                y = min(y, c.get("rapidity_max", math.inf), c.get("eta_max", math.inf) if m == 0.0 else math.inf)
+            y = min(y, self.cuts.upper("rapidity_max", i), self.cuts.upper("eta_max", i) if m == 0.0 else math.inf)
             out.append((-y - self.y_beams, y - self.y_beams))  # the cuts are on laboratory rapidities
         return out
 

@@ -70,28 +70,28 @@ def _tree(members: tuple[int, ...], family: list[tuple[tuple[int, ...], object, 
     return Node(tuple(sorted(members)), tuple(units), smap or FlatMap(), s_min)
 
 
-def topologies(structures, n_out: int, masses, sqrt_s: float, widths, pair_cut2: float, selected,
-               out_masses) -> list[Topology]:
-    """Decay trees for the propagator structures of an amplitude (see the module docstring)."""
+def topologies(structures, n_out: int, masses, sqrt_s: float, widths, pair_s_min, out_masses) -> list[Topology]:
+    """Decay trees for the propagator structures of an amplitude (see the module docstring);
+    pair_s_min(legs) is the cuts' lower bound on the invariant mass squared of those outgoing slots."""
     cands = []
     for legs, label in structures:
         m, w = masses.get(label, 0.0), widths.get(label, 0.0)
+        s_min = pair_s_min(legs)
         if m > 0.0 and w > 0.0 and m < sqrt_s:
-            cands.append((legs, BreitWignerMap(m, w), 0.0, 0))
-        elif m == 0.0 and len(legs) == 2 and pair_cut2 > 0.0 and all(i in selected for i in legs) \
-                and species(label).spin2 in (1, 2):
-            cands.append((legs, PowerMap(1.0), pair_cut2, 1))
-    best: dict[tuple[int, ...], tuple] = {}
-    for c in sorted(cands, key=lambda c: c[3]):  # one structure per set of particles, a resonance first
-        best.setdefault(c[0], c)
+            cands.append((legs, BreitWignerMap(m, w), s_min, 0))
+        elif m == 0.0 and len(legs) == 2 and s_min > 0.0 and species(label).spin2 in (1, 2):
+            cands.append((legs, PowerMap(1.0), s_min, 1))
+    best: dict[tuple, tuple] = {}
+    for c in sorted(cands, key=lambda c: c[3]):  # per set of particles one resonance and one massless line
+        best.setdefault((c[0], c[3]), c)
     cands = sorted(best.values(), key=lambda c: (c[3], -len(c[0])))
     families: dict[tuple, list] = {}
     for c in cands or [None]:
         fam = [] if c is None else [c]
         for other in cands:
-            if other is not c and all(_laminar(other[0], f[0]) for f in fam):
+            if other is not c and all(other[0] != f[0] and _laminar(other[0], f[0]) for f in fam):
                 fam.append(other)
-        families.setdefault(tuple(sorted(f[0] for f in fam)), fam)
+        families.setdefault(tuple(sorted((f[0], f[3]) for f in fam)), fam)
         if len(families) >= MAX_CHANNELS:
             break
     return [Topology(_tree(tuple(range(n_out)), [(f[0], f[1], f[2]) for f in fam]), out_masses)
@@ -109,11 +109,8 @@ class TreeProcess(FixedBeams):
                                     params=self.params, **amplitude_inputs(cfg, dict(zip(names, cfg.resolved.masses))))
         rec = self.amplitude.recursion
         structures = list(propagator_structures(rec, 2))
-        cut = cfg.cuts.get("pair_mass_min", 0.0)
-        selected = set(self.cuts.selected)
-        out_masses = list(self.masses[2:])
-        self.phase = MultiChannel(topologies(structures, self.n_out, rec.masses, self.sqrt_s, rec.widths, cut * cut,
-                                              selected, out_masses))
+        self.phase = MultiChannel(topologies(structures, self.n_out, rec.masses, self.sqrt_s, rec.widths,
+                                             self.cuts.pair_s_min, list(self.masses[2:])))
         names_ch = ", ".join(t.name for t in self.phase.topologies)
         self.channels = (Channel(f"{self.phase.k} decay tree{'s' if self.phase.k > 1 else ''}: {names_ch}",
                                  self.phase.ndim),)
