@@ -87,6 +87,31 @@ def test_equal_amplitudes_share_one_evaluation(monkeypatch):
     assert np.count_nonzero(w) > 250
 
 
+def test_every_flavour_of_a_jet_process_shares_its_amplitude(monkeypatch):
+    """p p -> e- e+ jet: 30 subprocesses, but u g and c g (d g, s g, b g; and the q qbar and qbar g
+    pairs) have equal |M|^2 (the model's couplings are flavour-blind within a family type, common
+    practice, no source): 6 amplitudes, each in both beam orders, and the weights agree with every
+    amplitude evaluated apart to 1e-12."""
+    from gen.processes.tree_hadron import TreeHadronProcess
+
+    text = _pp(["e-", "e+", "jet"], "[cuts]\npt_min = 30.0\npair_mass_min = 60.0")
+    shared = build_process(parse_card(text, "zj.toml"))
+    assert len(shared.subprocesses) == 30 and len(shared.amplitudes) == 6
+    assert shared.record_sections()["process"]["evaluations_per_point"] == 12
+    x = np.random.default_rng(3).random((200, shared.ndim))
+    w = shared.weights(x)
+
+    def apart(self, amp, prints):
+        prints.append(None)
+        return len(prints) - 1
+
+    monkeypatch.setattr(TreeHadronProcess, "_same_as", apart)
+    alone = build_process(parse_card(text, "zj.toml"))
+    assert len(alone.amplitudes) == 15  # five flavours, each q qbar, q g and qbar g
+    np.testing.assert_allclose(w, alone.weights(x), rtol=1e-12)
+    assert np.count_nonzero(w) > 50
+
+
 @pytest.mark.parametrize("outgoing,extra,key", [
     (["t", "tbar", "g", "g"], "", "process.outgoing"),
     (["e-", "mu+"], "[cuts]\nmass_min = 50.0", "process"),

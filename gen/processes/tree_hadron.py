@@ -57,6 +57,14 @@ class _Terms:
     norm: np.ndarray
 
 
+def _beam_order(name: str) -> tuple:
+    """The order of two incoming partons in the amplitude built for them, the same for every
+    flavour (gluon, then quark, then antiquark) so that u g and c g build alike and share one
+    evaluation."""
+    sp = species(name)
+    return -abs(sp.colour), -1 if sp.colour > 0 else 1, name
+
+
 class TreeHadronProcess(HadronCollision):
     """A card with hadron beams and a model of automatic amplitudes (see the module docstring)."""
 
@@ -73,7 +81,7 @@ class TreeHadronProcess(HadronCollision):
         prints: list[tuple[tuple, np.ndarray]] = []
         for i, sub in enumerate(self.subprocesses):
             a, b = sub.partons
-            canon = tuple(sorted((a, b)))
+            canon = tuple(sorted((a, b), key=_beam_order))
             key = (canon, sub.outgoing)
             if key not in amp_of:
                 amp = tree.build(cfg.model, list(canon), list(sub.outgoing), params=params, **inputs)
@@ -132,15 +140,17 @@ class TreeHadronProcess(HadronCollision):
             if w > 0 and self.shat_min < m * m < self.shat_max:
                 self.shat_map = BreitWignerMap(m, w)
                 break
-        cut = cfg.cuts.get("pair_mass_min", 0.0)
         self.phase = MultiChannel(topologies(structures, self.n_out, masses, math.sqrt(self.shat_max), widths,
-                                             cut * cut, set(self.cuts.selected), list(self.m_out)))
+                                             self.cuts.pair_s_min, list(self.m_out)))
+        for top in self.phase.topologies:  # the parts of the root splitting share their p_T
+            top.root_pt_min = max([self.cuts.lower("pt_min", c) for c in top.root.children if isinstance(c, int)],
+                                  default=0.0)
         names = ", ".join(t.name for t in self.phase.topologies)
         self.channels = (Channel(f"s-hat, y; {self.phase.k} decay tree{'s' if self.phase.k > 1 else ''}: {names}",
                                  2 + self.phase.ndim),)
         # two outgoing particles with a p_T cut and no resonance in s-hat: p_T^2, y3, y4 and the
         # azimuth, the rapidity ranges those of the cuts where they bind (as HadronCollision does)
-        self.pt_min = float(cfg.cuts.get("pt_min", 0.0))
+        self.pt_min = max(self.cuts.lower("pt_min", k) for k in range(self.n_out))
         self.pt_rapidities = self.n_out == 2 and self.pt_min > 0 and not isinstance(self.shat_map, BreitWignerMap)
         if self.pt_rapidities:
             self.y_ranges = self.rapidity_ranges()
