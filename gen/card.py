@@ -120,6 +120,9 @@ SPEC: dict[str, dict[str, Key]] = {
         "weighted_events": Key(int, 10000, 0, 1e12, "", "sampled points to write as weighted events (0: no weighted file)"),
         "seed": Key(int, 1, 0, 2**63 - 1, "", "seed of the run's random streams"),
         "calibration_points": Key(int, 100000, 1000, 1e9, "", "points drawn from the adapted map to find the maximum weight"),
+        "overweight_share": Key(NUMBER, 1e-4, 0.0, 0.01, "", "share of the calibration sample's cross-section that "
+                                "weights above the maximum weight may carry (the maximum weight is the lowest such "
+                                "bound, so one rare large weight does not set it; 0: the largest weight)"),
         "chunk": Key(int, 50000, 1000, 1e7, "", "points handled per vectorized step"),
     },
     "output": {

@@ -71,3 +71,22 @@ def test_the_chi2_tail_against_scipy_special():
             ref = gammaincc(dof / 2, chi2 / 2)
             if ref > 1e-250:
                 assert chi2_survival(float(chi2), dof) == pytest.approx(ref, rel=1e-12, abs=0), (dof, chi2)
+
+
+def test_the_excess_bounded_maximum_weight():
+    """The bound is the lowest weight whose excess sum(w - bound) over the larger weights stays
+    within the allowance (its definition; checked here by brute force over every candidate)."""
+    from gen.sampling.sampler import bounded_maximum
+    rng = np.random.default_rng(5)
+    w = rng.pareto(1.5, 3000) + 1.0
+    assert bounded_maximum(w, 0.0) == w.max()
+    for share in (1e-4, 1e-3, 1e-2):
+        allowed = share * w.sum()
+        bound = bounded_maximum(w, allowed)
+        excess = np.clip(w - bound, 0, None).sum()
+        assert excess <= allowed
+        lower = np.sort(w[w < bound])
+        assert lower.size == 0 or np.clip(w - lower[-1], 0, None).sum() > allowed
+    # one outlier does not set the bound when the allowance covers it
+    w2 = np.concatenate([np.ones(100000), [50.0]])
+    assert bounded_maximum(w2, 1e-3 * w2.sum()) == 1.0

@@ -58,6 +58,7 @@ def physics_digest(cfg: RunConfig) -> str:
         **({"partons": cfg.partons, "scales": cfg.scales} if cfg.hadron_beams else {}),
         **({"decays": cfg.decays} if cfg.decays else {}),
         "calibration_points": cfg.sampling["calibration_points"],
+        "overweight_share": cfg.sampling["overweight_share"],
     }
     return hashlib.sha256(json.dumps(doc, sort_keys=True).encode()).hexdigest()[:32]
 
@@ -179,7 +180,8 @@ class Grid:
 
 
 def make_grid(proc, cfg: RunConfig, progress: Progress | None = None) -> Grid:
-    """Adapt vegas to the process, then find the maximum weight on the frozen grid."""
+    """Adapt vegas to the process, then find the maximum weight on the frozen grid (the lowest bound
+    above which the calibration weights carry at most sampling.overweight_share of their sum)."""
     progress = progress or Progress(enabled=False)
     integ = cfg.integration
     unit = proc.measure.unit
@@ -200,6 +202,6 @@ def make_grid(proc, cfg: RunConfig, progress: Progress | None = None) -> Grid:
     nodes = tuple(tuple(float(v) for v in grid[d, :ninc[d] + 1]) for d in range(proc.ndim))
     # calibrate on the map rebuilt from the stored nodes, exactly as every part will sample it
     sampler = MapSampler(weights, vegas.AdaptiveMap([list(n) for n in nodes]), proc.ndim, cfg.sampling["chunk"])
-    wmax = sampler.max_weight(rng_cal, cfg.sampling["calibration_points"])
+    wmax = sampler.max_weight(rng_cal, cfg.sampling["calibration_points"], cfg.sampling["overweight_share"])
     return Grid(physics_digest(cfg), cfg.text, cfg.source, tuple((c.name, c.ndim) for c in proc.channels), nodes, xs,
                 wmax)

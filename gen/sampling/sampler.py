@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 import vegas
 
-__all__ = ["CrossSection", "adapt", "MapSampler", "UnweightingStats", "chi2_survival"]
+__all__ = ["CrossSection", "adapt", "MapSampler", "UnweightingStats", "bounded_maximum", "chi2_survival"]
 
 
 def chi2_survival(chi2: float, dof: int) -> float:
@@ -158,6 +158,20 @@ class UnweightingStats:
                 "sampling_error": err}
 
 
+#: calibration weights kept for the excess-bounded maximum weight
+TOP_WEIGHTS = 20000
+
+
+def bounded_maximum(weights: np.ndarray, allowed: float) -> float:
+    """The lowest of the weights such that the excess sum(w - bound) of those above it stays within
+    `allowed` (the largest weight when allowed is 0)."""
+    w = np.sort(weights)[::-1]
+    # excess over w[k] of the k larger weights: sum_{i<k} w[i] - k w[k], non-decreasing in k
+    excess = np.concatenate([[0.0], np.cumsum(w)[:-1]]) - np.arange(w.size) * w
+    k = int(np.searchsorted(excess, allowed, side="right")) - 1
+    return float(w[max(k, 0)])
+
+
 class MapSampler:
     """Draws points from a frozen adapted map: x = map(y), y uniform, weight f(x) dx/dy."""
 
@@ -177,14 +191,22 @@ class MapSampler:
             raise FloatingPointError("the integrand returned negative or non-finite weights")
         return x, w
 
-    def max_weight(self, rng: np.random.Generator, n: int) -> float:
-        wmax = 0.0
+    def max_weight(self, rng: np.random.Generator, n: int, share: float = 0.0) -> float:
+        """The maximum weight for unweighting from n calibration points: the lowest w_max such that
+        the weights above it carry at most `share` of the calibration sum in their excess
+        sum(w - w_max) (0: the largest weight). Only the largest TOP_WEIGHTS weights are kept, and
+        w_max never goes below the smallest of them."""
+        top = np.zeros(0)
+        total = 0.0
         for start in range(0, n, self.chunk):
             _, w = self.draw(rng, min(self.chunk, n - start))
-            wmax = max(wmax, float(w.max(initial=0.0)))
-        if wmax <= 0.0:
+            total += float(w.sum())
+            top = np.concatenate([top, w[w > 0]])
+            if top.size > TOP_WEIGHTS:
+                top = np.partition(top, top.size - TOP_WEIGHTS)[-TOP_WEIGHTS:]
+        if top.size == 0:
             raise FloatingPointError("every calibration point has zero weight")
-        return wmax
+        return bounded_maximum(top, share * total)
 
     def unweighted(self, rng: np.random.Generator, n_events: int, stats: UnweightingStats) -> Iterator[np.ndarray]:
         """Yield accepted points (chunks of x) until n_events are accepted, filling stats."""
