@@ -63,17 +63,12 @@ def test_alpha_s_runs_through_the_vertices():
     assert not np.allclose(ref.squared(p, alpha_s=a), ref.squared(p), rtol=1e-3)
 
 
-def test_equal_amplitudes_share_one_evaluation(monkeypatch):
-    """u ubar and c cbar -> t tbar (and d dbar, s sbar) have equal |M|^2 in the model file: one
-    evaluation each, and the weights agree with every amplitude evaluated apart to 1e-12."""
+def _weights_shared_and_apart(monkeypatch, shared, text, n, seed):
+    """The weights of `shared` at n random points, checked to 1e-12 against the same card built
+    with every amplitude evaluated apart; returns (weights, the process built apart)."""
     from gen.processes.tree_hadron import TreeHadronProcess
 
-    text = _pp(["t", "tbar"])
-    shared = build_process(parse_card(text, "tt.toml"))
-    assert len(shared.amplitudes) == 4  # u-type, d-type, b (W exchange), g g
-    # each quark amplitude in both beam orders, g g once: 7 evaluations, reported in the record
-    assert shared.record_sections()["process"]["evaluations_per_point"] == 7
-    x = np.random.default_rng(2).random((300, shared.ndim))
+    x = np.random.default_rng(seed).random((n, shared.ndim))
     w = shared.weights(x)
 
     def apart(self, amp, prints):
@@ -81,9 +76,21 @@ def test_equal_amplitudes_share_one_evaluation(monkeypatch):
         return len(prints) - 1
 
     monkeypatch.setattr(TreeHadronProcess, "_same_as", apart)
-    alone = build_process(parse_card(text, "tt.toml"))
-    assert len(alone.amplitudes) == 6
+    alone = build_process(parse_card(text, "apart.toml"))
     np.testing.assert_allclose(w, alone.weights(x), rtol=1e-12)
+    return w, alone
+
+
+def test_equal_amplitudes_share_one_evaluation(monkeypatch):
+    """u ubar and c cbar -> t tbar (and d dbar, s sbar) have equal |M|^2 in the model file: one
+    evaluation each, and the weights agree with every amplitude evaluated apart to 1e-12."""
+    text = _pp(["t", "tbar"])
+    shared = build_process(parse_card(text, "tt.toml"))
+    assert len(shared.amplitudes) == 4  # u-type, d-type, b (W exchange), g g
+    # each quark amplitude in both beam orders, g g once: 7 evaluations, reported in the record
+    assert shared.record_sections()["process"]["evaluations_per_point"] == 7
+    w, alone = _weights_shared_and_apart(monkeypatch, shared, text, 300, 2)
+    assert len(alone.amplitudes) == 6
     assert np.count_nonzero(w) > 250
 
 
@@ -92,23 +99,12 @@ def test_every_flavour_of_a_jet_process_shares_its_amplitude(monkeypatch):
     pairs) have equal |M|^2 (the model's couplings are flavour-blind within a family type, common
     practice, no source): 6 amplitudes, each in both beam orders, and the weights agree with every
     amplitude evaluated apart to 1e-12."""
-    from gen.processes.tree_hadron import TreeHadronProcess
-
     text = _pp(["e-", "e+", "jet"], "[cuts]\npt_min = 30.0\npair_mass_min = 60.0")
     shared = build_process(parse_card(text, "zj.toml"))
     assert len(shared.subprocesses) == 30 and len(shared.amplitudes) == 6
     assert shared.record_sections()["process"]["evaluations_per_point"] == 12
-    x = np.random.default_rng(3).random((200, shared.ndim))
-    w = shared.weights(x)
-
-    def apart(self, amp, prints):
-        prints.append(None)
-        return len(prints) - 1
-
-    monkeypatch.setattr(TreeHadronProcess, "_same_as", apart)
-    alone = build_process(parse_card(text, "zj.toml"))
+    w, alone = _weights_shared_and_apart(monkeypatch, shared, text, 200, 3)
     assert len(alone.amplitudes) == 15  # five flavours, each q qbar, q g and qbar g
-    np.testing.assert_allclose(w, alone.weights(x), rtol=1e-12)
     assert np.count_nonzero(w) > 50
 
 
