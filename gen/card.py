@@ -51,7 +51,7 @@ SPEC: dict[str, dict[str, Key]] = {
         "incoming": Key(list, required=True, doc="two incoming particles (names or PDG ids), or two hadrons (p, pbar); the "
                         "first moves along +z; or one particle, which decays at rest (no [collider]; the integral is its partial width)"),
         "outgoing": Key(list, required=True, doc="two or three outgoing particles (names or PDG ids), two to six with "
-                        "a model of automatic amplitudes (standard, standard-gluon-higgs, qed-tree, scalar-tree); with hadron beams one or two "
+                        "a model of automatic amplitudes (standard, standard-gluon-higgs, qcd-tree, qed-tree, scalar-tree); with hadron beams one or two "
                         "(two or three with automatic amplitudes), and group names (jet, quark, antiquark, l-, l+, nu, nubar) stand for any of their members"),
         "helicities": Key(str, "sum", doc="automatic amplitudes: sum over helicities at every point, or sample one "
                           "helicity configuration per point (cheaper per point, larger variance)", choices=("sum", "sample")),
@@ -338,7 +338,7 @@ def _particles(d: _Draft) -> None:
     for k in ("helicities", "colours"):
         if k in proc and k in d.doc.get("process", {}) and not automatic:
             raise d.error(f"process.{k}", f"applies to models of automatic amplitudes only (standard, standard-gluon-higgs, "
-                          f"qed-tree, scalar-tree); the {d.model.name} model's processes are hand-coded and summed exactly")
+                          f"qcd-tree, qed-tree, scalar-tree); the {d.model.name} model's processes are hand-coded and summed exactly")
     if automatic and d.at_rest:
         raise d.error("process.incoming", f"the automatic amplitudes of the {d.model.name} model take two beams; "
                       "for decays at rest use the hand-coded models (qed, electroweak)")

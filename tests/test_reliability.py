@@ -623,6 +623,7 @@ SM_H = card("standard", ("b", "bbar"), ("tau-", "tau+"), "sqrt_s = 125.0", FAST[
 SM_QQG = card("standard", ("e-", "e+"), ("u", "ubar", "g"), "sqrt_s = 30.0",
               "[cuts]\npair_mass_min = 5.0\npt_min = 1.0\nenergy_min = 1.0\n" + FAST[0], FAST[1])
 QED_TREE = card("qed-tree", ("e-", "e+"), ("mu-", "mu+"), "sqrt_s = 10.0", FAST[0], FAST[1])
+QCD_TREE = card("qcd-tree", ("u", "ubar"), ("g", "g"), "sqrt_s = 100.0", "[cuts]\npt_min = 10.0\n" + FAST[0], FAST[1])
 SCALAR_TREE = card("scalar-tree", ("phi", "phi"), ("phi", "phi"), "sqrt_s = 10.0", FAST[0], FAST[1])
 
 #: (model, parameter) -> a card where it must be accepted (it has an effect there)
@@ -659,6 +660,7 @@ EFFECTIVE = {
     ("standard", "alpha_s"): _with_parameters(SM_QQG, "alpha_s = 0.14"),
     ("standard", "width_scheme"): _with_parameters(SM_MUMU, 'width_scheme = "complex_mass"'),
     ("qed-tree", "alpha"): _with_parameters(QED_TREE, "alpha = 0.0078"),
+    ("qcd-tree", "alpha_s"): _with_parameters(QCD_TREE, "alpha_s = 0.14"),
     ("scalar-tree", "mass"): _with_parameters(SCALAR_TREE, "mass = 2.0"),
     ("scalar-tree", "quartic"): _with_parameters(SCALAR_TREE, "quartic = 0.5"),
     ("scalar-tree", "cubic"): _with_parameters(SCALAR_TREE, "cubic = 1.5"),

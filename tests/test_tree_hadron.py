@@ -108,6 +108,35 @@ def test_every_flavour_of_a_jet_process_shares_its_amplitude(monkeypatch):
     assert np.count_nonzero(w) > 50
 
 
+def test_flavours_the_model_cannot_tell_apart_are_built_once(monkeypatch):
+    """p p -> jet jet in the pure-QCD model: every light flavour (b included, massless in the
+    five-flavour scheme) is one class, so c s -> c s is built as u d -> u d and u ubar -> g g
+    serves every flavour (QCD is flavour-blind, common practice, no source); the standard model,
+    whose electroweak charges tell u from d, has no such class. The weights agree to 1e-12 with
+    every amplitude built and evaluated apart."""
+    from gen.processes.tree_hadron import TreeHadronProcess
+
+    assert tree.interchangeable_quarks("qcd-tree", masses=tree.HADRON_MASSLESS) == [("d", "u", "s", "c", "b")]
+    assert tree.interchangeable_quarks("standard", masses=tree.HADRON_MASSLESS) == []
+    text = card("qcd-tree", ["p", "p"], ["jet", "jet"], f"sqrt_s = {SQRT_S}", "[cuts]\npt_min = 50.0")
+    built = []
+    original = tree.build
+
+    def counting(*args, **kw):
+        built.append(tuple(args[1]) + tuple(args[2]))
+        return original(*args, **kw)
+
+    monkeypatch.setattr(tree, "build", counting)
+    shared = build_process(parse_card(text, "jj.toml"))
+    n_shared = len(built)
+    monkeypatch.setattr(tree, "interchangeable_quarks", lambda *a, **k: [])
+    built.clear()
+    _weights_shared_and_apart(monkeypatch, shared, text, 400, 5)
+    # one build per flavour pattern (q q -> q q, q Q -> q Q, q Q -> Q q, q qbar -> Q Qbar, g g ...):
+    # 14 of them, against one per flavour combination without the classes
+    assert n_shared == 14 and len(built) > 4 * n_shared, (n_shared, len(built))
+
+
 @pytest.mark.parametrize("outgoing,extra,key", [
     (["t", "tbar", "g", "g"], "", "process.outgoing"),
     (["e-", "mu+"], "[cuts]\nmass_min = 50.0", "process"),

@@ -19,6 +19,9 @@ __all__ = ["IntegrandError", "probe", "guarded", "check_effects"]
 
 #: points of the probe before adaptation
 PROBE_POINTS = 4096
+#: the probe's first look: most integrands are non-zero somewhere among these, and a slow one
+#: (p p -> 3 jets, some ms per point) is not kept waiting a minute for the rest
+PROBE_FIRST = 256
 #: negative weights this small against the largest of their batch are rounding, set to zero
 ROUNDING = 1e-12
 #: points on which a model parameter's effect is looked for
@@ -79,8 +82,13 @@ def probe(proc) -> None:
     """Raise IntegrandError when the process's integrand is zero at every one of PROBE_POINTS
     uniform points, or negative or not finite at any of them."""
     rng = np.random.default_rng(np.random.SeedSequence(proc.cfg.sampling["seed"], spawn_key=(2,)))
+    x = rng.random((PROBE_POINTS, proc.ndim))
     with np.errstate(all="ignore"):
-        w = _check(proc, proc.weights(rng.random((PROBE_POINTS, proc.ndim))))
+        # the adaptation checks every batch for negative and non-finite weights (`guarded`); the
+        # rest of the probe is needed only when the first look finds nothing
+        if (_check(proc, proc.weights(x[:PROBE_FIRST])) > 0).any():
+            return
+        w = _check(proc, proc.weights(x[PROBE_FIRST:]))
     if not (w > 0).any():
         raise _diagnose(proc, "zero")
 

@@ -29,7 +29,7 @@ from ..physics.channels import MultiChannel
 from ..physics.constants import HBARC2_PB
 from ..physics.kinematics import BreitWignerMap, PowerMap, boost_z
 from ..physics.matrix.registry import draw_index
-from ..physics.particles import species
+from ..physics.particles import antiparticle, species
 from ..physics.tree.amplitudes import flow_chooser
 from .hadron import HadronCollision, coloured_slot, jet_and_boson_scales
 from .interface import CannotValidate, Channel, EventData
@@ -57,6 +57,34 @@ class _Terms:
     norm: np.ndarray
 
 
+class _Renamer:
+    """Renames the quark flavours of each class of interchangeable flavours (`tree.interchangeable_quarks`)
+    in order of first appearance to the class's members in order, antiquarks with their quarks."""
+
+    def __init__(self, classes):
+        self.classes = classes
+        self.of = {q: k for k, cls in enumerate(classes) for q in cls}
+
+    def __call__(self, names: tuple[str, ...]) -> tuple[str, ...]:
+        if not self.classes:
+            return names
+        given: dict[str, str] = {}
+        used = [0] * len(self.classes)
+        out = []
+        for n in names:
+            sp = species(n)
+            q = n if sp.pdg > 0 else antiparticle(n)
+            k = self.of.get(q)
+            if k is None:
+                out.append(n)
+                continue
+            if q not in given:
+                given[q] = self.classes[k][used[k]]
+                used[k] += 1
+            out.append(given[q] if q == n else antiparticle(given[q]))
+        return tuple(out)
+
+
 def _beam_order(name: str) -> tuple:
     """The order of two incoming partons in the amplitude built for them, the same for every
     flavour (gluon, then quark, then antiquark) so that u g and c g build alike and share one
@@ -79,12 +107,16 @@ class TreeHadronProcess(HadronCollision):
         amp_of: dict[tuple, int] = {}
         ev_of: dict[tuple, int] = {}
         prints: list[tuple[tuple, np.ndarray]] = []
+        rename = _Renamer(tree.interchangeable_quarks(cfg.model, params, inputs["masses"], inputs["widths"]))
         for i, sub in enumerate(self.subprocesses):
             a, b = sub.partons
             canon = tuple(sorted((a, b), key=_beam_order))
-            key = (canon, sub.outgoing)
+            # flavours the model cannot tell apart renamed in order of appearance: c s -> c s g
+            # is built as u d -> u d g, and the two share one amplitude without building both
+            key = rename(canon + tuple(sub.outgoing))
+            key = (key[:2], key[2:])
             if key not in amp_of:
-                amp = tree.build(cfg.model, list(canon), list(sub.outgoing), params=params, **inputs)
+                amp = tree.build(cfg.model, list(key[0]), list(key[1]), params=params, **inputs)
                 amp_of[key] = self._same_as(amp, prints)
                 if amp_of[key] == len(self.amplitudes):
                     self.amplitudes.append(amp)

@@ -6,7 +6,7 @@ file's vertices allow is built on demand."""
 from __future__ import annotations
 
 from ...keys import NUMBER, Key
-from ..tree.model import MODEL_FILES, WIDTH_SCHEMES, load
+from ..tree.model import MODEL_FILES, WIDTH_SCHEMES, ModelFileError, load
 from .registry import Model
 
 __all__ = ["automatic_models"]
@@ -17,7 +17,11 @@ _EXTRA = {"alpha_s": Key(NUMBER, 0.118, 1e-4, 1.0, "", "strong coupling, fixed (
 
 def _make(name: str, base: Model) -> Model:
     tm = load(name)
-    params = dict(base.params)
+    unknown = [k for k in tm.takes if k not in base.params]
+    if unknown:
+        raise ModelFileError(f"{tm.path}: [about] takes: {unknown[0]!r} is not a parameter of the {base.name} model; "
+                             f"it has {', '.join(base.params)}")
+    params = {k: v for k, v in base.params.items() if not tm.takes or k in tm.takes}
     params.update({k: _EXTRA[k] for k in tm.extra_parameters})
     unstable = any("width" in entry for entry in tm.particles.values())
     params["width_scheme"] = Key(str, tm.widths, doc="widths of unstable particles in propagators: fixed (in "
@@ -27,7 +31,7 @@ def _make(name: str, base: Model) -> Model:
         del params["width_scheme"]
 
     def resolve(over):
-        out = dict(base.resolve({k: v for k, v in over.items() if k in base.params}))
+        out = dict(base.resolve({k: v for k, v in over.items() if k in params}))
         for k in tm.extra_parameters:
             out[k] = float(over.get(k, _EXTRA[k].default))
         if unstable:
@@ -35,7 +39,7 @@ def _make(name: str, base: Model) -> Model:
         return out
 
     def inapplicable(given):
-        out = dict(base.inapplicable({k: v for k, v in given.items() if k in base.params}))
+        out = dict(base.inapplicable({k: v for k, v in given.items() if k in params}))
         if given.get("width_scheme") == "complex_mass" and given.get("scheme") == "zpole":
             out["width_scheme"] = ("the zpole scheme takes sin^2 theta as an input, so the complex masses cannot set "
                                    "it; choose scheme = \"fermi\" or \"thomson\"")
@@ -43,7 +47,7 @@ def _make(name: str, base: Model) -> Model:
 
     return Model(name=name, doc=tm.description + " (automatic tree amplitudes of any process the model allows)",
                  params=params, resolve=resolve, mass_params=base.mass_params, width_params=base.width_params,
-                 inapplicable=inapplicable, couplings=tuple(base.couplings) + tuple(tm.extra_parameters),
+                 inapplicable=inapplicable, couplings=tuple(c for c in base.couplings if c in params) + tuple(tm.extra_parameters),
                  automatic=name, massless=tm.massless)
 
 

@@ -8,13 +8,13 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping, Sequence
 
-from ..particles import species
+from ..particles import antiparticle, species
 from .amplitudes import ProcessRefused, TreeAmplitude
 from .model import MODEL_FILES, ModelFileError, TreeModel, load
 
 __all__ = ["build", "allowed", "singular_lines", "resolve", "hadron_subprocesses", "HADRON_MASSLESS", "TreeAmplitude",
            "ProcessRefused", "ModelFileError", "TreeModel", "load",
-           "MODEL_FILES"]
+           "MODEL_FILES", "interchangeable_quarks"]
 
 
 def resolve(model: str, given: Mapping[str, object] | None = None) -> dict:
@@ -65,6 +65,41 @@ def allowed(model: str, incoming: Sequence[str], outgoing: Sequence[str], params
     if not rec.exists:
         return "no vertex of the model joins these particles at tree level"
     return None
+
+
+def interchangeable_quarks(model: str, params: Mapping[str, object] | None = None,
+                           masses: Mapping[str, float] | None = None,
+                           widths: Mapping[str, float] | None = None) -> list[tuple[str, ...]]:
+    """Classes of quark flavours that the model cannot tell apart: same mass and width, and
+    swapping two of them (with their antiquarks) maps the set of vertices, couplings included,
+    onto itself. Any amplitude is then unchanged when flavours of one class are renamed within it
+    (in the pure-QCD model every light flavour is in one class; in the standard model none are,
+    their electroweak charges differ)."""
+    from .model import ckm_from
+
+    tm = load(model)
+    mass_of, width_of, par = _mass_functions(model, None, masses, widths, params)
+    vertices = tm.numeric(par, "fixed", mass_of, ckm_from(par))
+
+    def signature(rename):
+        return sorted((tuple(rename.get(leg, leg) for leg in v.legs), v.form, v.colour,
+                       tuple(complex(round(c.real, 12), round(c.imag, 12)) for c in v.couplings)) for v in vertices)
+
+    plain = signature({})
+    quarks = [q for q in ("d", "u", "s", "c", "b", "t") if q in tm.field_names]
+    classes: list[list[str]] = []
+    for q in quarks:
+        for cls in classes:
+            r = cls[0]
+            if (mass_of(q), width_of(q)) != (mass_of(r), width_of(r)):
+                continue
+            swap = {q: r, r: q, antiparticle(q): antiparticle(r), antiparticle(r): antiparticle(q)}
+            if signature(swap) == plain:
+                cls.append(q)
+                break
+        else:
+            classes.append([q])
+    return [tuple(c) for c in classes if len(c) > 1]
 
 
 #: particles massless in hadron collisions beyond those the model files treat as massless (the

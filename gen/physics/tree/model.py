@@ -54,7 +54,7 @@ __all__ = ["ModelFileError", "TreeModel", "Vertex", "NumericVertex", "FORMS", "l
 HERE = Path(__file__).parent
 #: the model files shipped with gen, by model name
 MODEL_FILES = {"standard": HERE / "standard.toml", "qed-tree": HERE / "qed.toml", "scalar-tree": HERE / "scalar.toml",
-               "standard-gluon-higgs": HERE / "gluon-higgs.toml"}
+               "standard-gluon-higgs": HERE / "gluon-higgs.toml", "qcd-tree": HERE / "qcd.toml"}
 
 #: form -> (spins of the legs as twice the spin, coupling keys)
 FORMS: dict[str, tuple[tuple[int, ...], tuple[str, ...]]] = {
@@ -117,6 +117,8 @@ class TreeModel:
     particles: Mapping[str, Mapping[str, str]]
     vertices: tuple[Vertex, ...]
     path: str
+    #: the library model's parameters this file takes (empty: all of them)
+    takes: tuple[str, ...] = ()
 
     @property
     def field_names(self) -> frozenset[str]:
@@ -322,7 +324,7 @@ def load(name_or_path: str) -> TreeModel:
                      about["parameters"], tuple(about.get("extra_parameters", ())), massless,
                      tuple((k, str(v)) for k, v in doc.get("derived", {}).items()),
                      {k: str(v) for k, v in doc.get("derived_complex_mass", {}).items()}, particles,
-                     tuple(vertices), str(path))
+                     tuple(vertices), str(path), tuple(about.get("takes", ())))
 
 
 def ckm_from(params: Mapping[str, object]) -> Callable[[str, str], float]:
