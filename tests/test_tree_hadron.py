@@ -335,3 +335,77 @@ def test_a_jet_cut_in_a_set_keeps_the_process_infrared_safe():
     w = proc.weights(x)
     jet_pt = np.hypot(d.lab[:, 2, 1], d.lab[:, 2, 2])
     assert np.all(w[jet_pt < 30.0] == 0.0) and np.count_nonzero(w) > 20
+
+
+# --- p p -> Z + 1 jet against a plain Monte Carlo of the published squared amplitudes ----------
+
+def _z_jet_plain_mc(proc, pt_min, eta_max, n=400_000, seed=11):
+    """sigma (pb) of p p -> Z jet with the jet above pt_min and inside |eta| < eta_max, by a plain
+    Monte Carlo written apart from the library (only the parton densities and alpha_s are the run's):
+    the averaged squared amplitudes of q qbar -> V g and q g -> V q, from the textbook
+    q qbar -> gamma g = (8/9) e^2 Q^2 g^2 (t^2 + u^2)/(t u) and q g -> q gamma = -(1/3) e^2 Q^2 g^2
+    (s^2 + u^2)/(s u) (Ellis, Stirling & Webber (1996), Table 7.1) with a vector mass M:
+    (t^2 + u^2 + 2 s M^2)/(t u) and -(s^2 + u^2 + 2 t M^2)/(s u) (t between the incoming and the
+    outgoing quark; the same book, sec. 9.2; from memory), and e^2 Q^2 -> g_Z^2 (g_L^2 + g_R^2)/2
+    with g_L = T3 - Q sin^2, g_R = -Q sin^2, g_Z = e / (sin cos)."""
+    from gen.physics.constants import HBARC2_PB
+
+    par = proc.params
+    mz = par["m_Z"]
+    e2 = 4.0 * math.pi * par["alpha"]
+    sw2 = par["sw2"]
+    gz2 = e2 / (sw2 * (1.0 - sw2))
+    mu = mz
+    gs2 = 4.0 * math.pi * float(proc.alpha_s(np.array([mu]))[0])
+    rng = np.random.default_rng(seed)
+    s_had = SQRT_S ** 2
+    shat_min = (math.sqrt(mz * mz + pt_min * pt_min) + pt_min) ** 2
+    lt_min = math.log(shat_min / s_had)
+    r = rng.random((3, n))
+    tau = np.exp(lt_min * (1.0 - r[0]))  # ln tau flat in [ln tau_min, 0]
+    y_max = -0.5 * np.log(tau)
+    y = y_max * (2.0 * r[1] - 1.0)
+    cos = 2.0 * r[2] - 1.0  # of the jet, against beam 1, in the parton frame
+    jac = -lt_min * tau * 2.0 * y_max * 2.0  # dx1 dx2 = dtau dy; d cos
+    x1, x2 = np.sqrt(tau) * np.exp(y), np.sqrt(tau) * np.exp(-y)
+    shat = tau * s_had
+    k = (shat - mz * mz) / (2.0 * np.sqrt(shat))  # jet energy in the parton frame
+    pt = k * np.sqrt(1.0 - cos * cos)
+    eta = np.arctanh(cos) + y
+    keep = (pt > pt_min) & (np.abs(eta) < eta_max)
+    # beam 1's parton against the jet: t1 = (p1 - p_jet)^2, t2 = (p2 - p_jet)^2
+    t1 = -np.sqrt(shat) * k * (1.0 - cos)
+    t2 = -np.sqrt(shat) * k * (1.0 + cos)
+    m2 = mz * mz
+    qqbar = (8.0 / 9.0) * (t1 * t1 + t2 * t2 + 2.0 * shat * m2) / (t1 * t2)
+    # q from beam 1, g from beam 2: t = (p1 - p_jet)^2 (quark in, quark out), u = (p2 - p_jet)^2
+    qg_1 = -(1.0 / 3.0) * (shat * shat + t2 * t2 + 2.0 * t1 * m2) / (shat * t2)
+    qg_2 = -(1.0 / 3.0) * (shat * shat + t1 * t1 + 2.0 * t2 * m2) / (shat * t1)
+    pids = [1, 2, 3, 4, 5]
+    f1 = {p: proc.pdf.xfx_many((p, -p), x1, mu) / x1 for p in pids}
+    f2 = {p: proc.pdf.xfx_many((p, -p), x2, mu) / x2 for p in pids}
+    g1 = proc.pdf.xfx(21, x1, mu) / x1
+    g2 = proc.pdf.xfx(21, x2, mu) / x2
+    total = np.zeros(n)
+    for p in pids:
+        t3 = -0.5 if p % 2 else 0.5
+        q = -1.0 / 3.0 if p % 2 else 2.0 / 3.0
+        c = gz2 * ((t3 - q * sw2) ** 2 + (q * sw2) ** 2) / 2.0
+        (q1, qb1), (q2, qb2) = f1[p], f2[p]
+        total += c * (qqbar * (q1 * qb2 + qb1 * q2) + qg_1 * (q1 + qb1) * g2 + qg_2 * g1 * (q2 + qb2))
+    dsig = gs2 * total / (16.0 * math.pi * shat ** 2) * 2.0 * k * np.sqrt(shat) / 2.0  # dt = 2 k sqrt(s)/2 dcos
+    w = np.where(keep, HBARC2_PB * jac * dsig, 0.0)
+    return w.mean(), w.std() / math.sqrt(n)
+
+
+@pytest.mark.slow
+def test_z_plus_jet_against_a_plain_monte_carlo_of_the_published_amplitudes():
+    """sigma(p p -> Z jet), jet p_T > 40 GeV and |eta| < 4, scales fixed at m_Z: the automatic
+    amplitudes through vegas within 5 sigma of the plain Monte Carlo above (its own phase space
+    and squared amplitudes; Ellis, Stirling & Webber, Table 7.1 and sec. 9.2)."""
+    text = _pp(["Z", "jet"], '[cuts]\nparticles = ["jet"]\npt_min = 40.0\neta_max = 4.0\n'
+               "[scales]\nrenormalization = 91.1876\nfactorization = 91.1876")
+    proc, xs = integrate(text, points=20000)
+    ref, err = _z_jet_plain_mc(proc, 40.0, 4.0)
+    assert err < 0.01 * ref  # the check has teeth
+    assert within(xs.value, math.hypot(xs.error, err), ref, k=5), (xs.value, xs.error, ref, err)
