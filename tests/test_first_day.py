@@ -242,3 +242,19 @@ def test_a_folder_of_parts_only_is_not_validated_silently(tmp_path):
                 "--events", "500", "--quiet").returncode == 0
     r = _gen("validate", str(tmp_path / "p"))
     assert r.returncode == 2 and "holds only batch parts; merge them first" in r.stderr
+
+
+def test_the_maximum_weight_calibration_shows_its_progress():
+    """The calibration of w_max is a stage of its own in the progress (it takes minutes where one
+    point costs milliseconds, p p -> 3 jets), with lines in a log as the points are drawn."""
+    from gen.card import parse_card
+    from gen.processes import build_process
+    from gen.progress import Progress
+    from gen.sampling.grid import make_grid
+
+    text = (ROOT / "cards" / "scalar-toy.toml").read_text()
+    cfg = parse_card(text.replace("[sampling]", "[sampling]\ncalibration_points = 4000\nchunk = 1000"), "toy.toml")
+    log = io.StringIO()
+    make_grid(build_process(cfg), cfg, Progress(stream=log, log_every=0.0))
+    lines = [line for line in log.getvalue().splitlines() if line.strip().startswith("calibrate")]
+    assert len(lines) >= 4 and "of 4000 points for w_max" in lines[0] and "done" in lines[-1]

@@ -202,6 +202,11 @@ def make_grid(proc, cfg: RunConfig, progress: Progress | None = None) -> Grid:
     nodes = tuple(tuple(float(v) for v in grid[d, :ninc[d] + 1]) for d in range(proc.ndim))
     # calibrate on the map rebuilt from the stored nodes, exactly as every part will sample it
     sampler = MapSampler(weights, vegas.AdaptiveMap([list(n) for n in nodes]), proc.ndim, cfg.sampling["chunk"])
-    wmax = sampler.max_weight(rng_cal, cfg.sampling["calibration_points"], cfg.sampling["overweight_share"])
+    n_cal = cfg.sampling["calibration_points"]
+    # a stage of its own: at milliseconds per point (p p -> 3 jets) it takes minutes
+    progress.stage("calibrate", n_cal)
+    wmax = sampler.max_weight(rng_cal, n_cal, cfg.sampling["overweight_share"],
+                              on_chunk=lambda done: progress.update(done, f"{done} of {n_cal} points for w_max"))
+    progress.end(f"w_max from {n_cal} points")
     return Grid(physics_digest(cfg), cfg.text, cfg.source, tuple((c.name, c.ndim) for c in proc.channels), nodes, xs,
                 wmax)

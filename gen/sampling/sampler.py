@@ -191,11 +191,12 @@ class MapSampler:
             raise FloatingPointError("the integrand returned negative or non-finite weights")
         return x, w
 
-    def max_weight(self, rng: np.random.Generator, n: int, share: float = 0.0) -> float:
+    def max_weight(self, rng: np.random.Generator, n: int, share: float = 0.0,
+                   on_chunk: Callable[[int], None] | None = None) -> float:
         """The maximum weight for unweighting from n calibration points: the lowest w_max such that
         the weights above it carry at most `share` of the calibration sum in their excess
         sum(w - w_max) (0: the largest weight). Only the largest TOP_WEIGHTS weights are kept, and
-        w_max never goes below the smallest of them."""
+        w_max never goes below the smallest of them. `on_chunk(done)` follows the points drawn."""
         top = np.zeros(0)
         total = 0.0
         for start in range(0, n, self.chunk):
@@ -204,6 +205,8 @@ class MapSampler:
             top = np.concatenate([top, w[w > 0]])
             if top.size > TOP_WEIGHTS:
                 top = np.partition(top, top.size - TOP_WEIGHTS)[-TOP_WEIGHTS:]
+            if on_chunk is not None:
+                on_chunk(min(start + self.chunk, n))
         if top.size == 0:
             raise FloatingPointError("every calibration point has zero weight")
         return bounded_maximum(top, share * total)
