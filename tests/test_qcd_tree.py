@@ -150,3 +150,22 @@ def test_every_light_flavour_has_one_amplitude():
                                build("qcd-tree", ["u", "ubar"], ["g", "g", "g"]).squared(p), rtol=1e-12)
     np.testing.assert_allclose(build("qcd-tree", ["c", "s"], ["c", "s", "g"]).squared(p),
                                build("qcd-tree", ["u", "d"], ["u", "d", "g"]).squared(p), rtol=1e-12)
+
+
+@pytest.mark.parametrize("model, incoming, outgoing, mirrored", [
+    ("qcd-tree", ["u", "ubar"], ["g", "g", "g"], True),
+    ("qcd-tree", ["u", "d"], ["u", "d", "g"], True),
+    ("standard", ["e-", "e+"], ["u", "ubar", "g"], False),  # the Z's chiral couplings
+])
+def test_mirror_helicities_are_evaluated_once_where_parity_allows(model, incoming, outgoing, mirrored):
+    """With vector-like couplings and massless partons, flipping every helicity conjugates each
+    amplitude up to a phase, so one configuration of each mirror pair is evaluated and counted twice
+    (Dixon, hep-ph/9601359, sec. 3, from memory); chiral couplings break it and every configuration
+    stays. Either way sum |M|^2 equals the plain sum over all configurations to 1e-12."""
+    amp = build(model, incoming, outgoing)
+    assert (amp.summed_factor == 2.0) is mirrored
+    assert len(amp.summed_configs) * amp.summed_factor == len(amp.helicity_configs)
+    p = amp.probe_momenta(21, 5)
+    fast = amp.squared(p)
+    amp.summed_configs, amp.summed_factor = list(amp.helicity_configs), 1.0
+    np.testing.assert_allclose(fast, amp.squared(p), rtol=1e-12)

@@ -220,8 +220,33 @@ class TreeAmplitude:
             top = max(csize.values()) if csize else 0.0
             self.colour_classes = [(c, float(classes[c])) for c in classes if top == 0.0 or csize[c] > 1e-24 * top]
             self._colour_basis(seed)
+            self._summed_parity(seed)
         else:
             self.colour_classes = []
+
+    def _summed_parity(self, seed: int) -> None:
+        """The helicity configurations the exact sums evaluate: one of each mirror pair (every
+        helicity flipped) when the colour-summed |M|^2 of the two agree at probe points to 1e-10,
+        counted twice. With vector-like couplings and massless partons (QCD, QED) a flip conjugates
+        every amplitude up to one phase and the colour matrix is real, so they agree; chiral
+        couplings (the Z, the W) or masses break it, the probe sees that and all are kept."""
+        self.summed_configs, self.summed_factor = list(self.helicity_configs), 1.0
+        kept = set(self.helicity_configs)
+        half = [h for h in self.helicity_configs if h < tuple(-x for x in h)]
+        if len(half) * 2 != len(kept) or any(tuple(-x for x in h) not in kept for h in half):
+            return
+        p = self.probe_momenta(seed + 2, 3)
+        ext, moms = self._externals(p), self._moms(p)
+        cache: dict = {}
+
+        def summed(h):
+            return self._colour_summed([self._amp(ext, moms, h, c, cache) for c in self.colour_basis])
+
+        for h in half:
+            a, b = summed(h), summed(tuple(-x for x in h))
+            if not np.allclose(a, b, rtol=1e-10, atol=1e-300):
+                return
+        self.summed_configs, self.summed_factor = half, 2.0
 
     def _setup_ordered(self, p, ext, moms, hels, seed: int) -> None:
         """Helicity configurations of the colour-ordered path (those not vanishing at the probe
@@ -471,9 +496,9 @@ class TreeAmplitude:
         if not hel_sample and not col_sample:
             total = np.zeros(n)
             cache: dict = {}
-            for h in self.helicity_configs:
+            for h in self.summed_configs:
                 total += self._colour_summed([self._amp(ext, moms, h, c, cache) for c in self.colour_basis])
-            return self.average * total
+            return self.average * self.summed_factor * total
         rng = rng or np.random.default_rng()
         hels = self.helicity_configs
         if hel_sample:
