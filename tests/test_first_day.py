@@ -65,6 +65,9 @@ def test_every_command_on_every_demo_card(path, tmp_path, capsys):
     text = capsys.readouterr().out
     unit = summary["measure"]["unit"]
     assert f" {unit}" in text and "couplings" in text
+    record = json.loads(_gen("info", str(out / "unweighted.parquet"), "--json").stdout)["files"][0]["process"]
+    if "evaluations_per_point" in record:  # subprocesses sharing amplitudes: gen info says how many are computed
+        assert f"{record['evaluations_per_point']} distinct |M|^2 evaluations per point" in text
     # validate: a verdict of pass, or one line saying what it cannot check (exit 2), never a traceback
     status = main(["validate", str(out), "--no-plots"])
     err = capsys.readouterr()
