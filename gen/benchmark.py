@@ -269,6 +269,19 @@ TREE_CARDS = ["lep2-w-pairs-four-fermions", "z-pole-radiative-muons", "z-pole-fo
               "higgs-factory-zh-spin-correlated", "linear-collider-top-pairs", "pp-top-pairs-recursion"]
 
 
+def _us_per_point(amp, p, repeat: int) -> float:
+    """Median over `repeat` of the microseconds per point of amp.squared at momenta p."""
+    import numpy as np
+
+    rng = np.random.default_rng(0)
+    times = []
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        amp.squared(p, rng)
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times) / p.shape[0] * 1e6
+
+
 def _tree(events: int, repeat: int) -> None:
     """The automatic amplitudes: microseconds per point (median of `repeat`) summed over helicities
     and with one configuration sampled per point, against the hand-coded library on the same 2 -> 2,
@@ -281,13 +294,7 @@ def _tree(events: int, repeat: int) -> None:
     from gen.physics.kinematics import dot
 
     def per_point(amp, p):
-        rng = np.random.default_rng(0)
-        times = []
-        for _ in range(repeat):
-            t0 = time.perf_counter()
-            amp.squared(p, rng)
-            times.append(time.perf_counter() - t0)
-        return statistics.median(times) / p.shape[0] * 1e6
+        return _us_per_point(amp, p, repeat)
 
     print(f"{'amplitude':<32} {'points':>6} {'colour':>7} {'us/point, summed':>17} {'sampled helicity':>17}")
     for label, model, incoming, outgoing, n in TREE_AMPLITUDES:
@@ -338,13 +345,7 @@ def _colour(repeat: int, points: int = 12, draws: int = 400) -> None:
     from gen.physics import tree
 
     def per_point(amp, p):
-        rng = np.random.default_rng(0)
-        times = []
-        for _ in range(repeat):
-            t0 = time.perf_counter()
-            amp.squared(p, rng)
-            times.append(time.perf_counter() - t0)
-        return statistics.median(times) / p.shape[0] * 1e6
+        return _us_per_point(amp, p, repeat)
 
     print(f"{'process':<22} {'mode':<26} {'us/point':>9} {'rel. variance v':>16} {'CPU per variance':>17}")
     for label, model, incoming, outgoing in COLOUR_PROCESSES:
