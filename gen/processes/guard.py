@@ -80,7 +80,8 @@ def _check(proc, w: np.ndarray) -> np.ndarray:
 
 def probe(proc) -> None:
     """Raise IntegrandError when the process's integrand is zero at every one of PROBE_POINTS
-    uniform points, or negative or not finite at any of them."""
+    uniform points, or negative or not finite at any of those it evaluates (the first
+    PROBE_FIRST, and the rest only when those are all zero)."""
     rng = np.random.default_rng(np.random.SeedSequence(proc.cfg.sampling["seed"], spawn_key=(2,)))
     x = rng.random((PROBE_POINTS, proc.ndim))
     with np.errstate(all="ignore"):
