@@ -344,22 +344,19 @@ def _colour(repeat: int, points: int = 12, draws: int = 400) -> None:
 
     from gen.physics import tree
 
-    def per_point(amp, p):
-        return _us_per_point(amp, p, repeat)
-
     print(f"{'process':<22} {'mode':<26} {'us/point':>9} {'rel. variance v':>16} {'CPU per variance':>17}")
     for label, model, incoming, outgoing in COLOUR_PROCESSES:
         exact = tree.build(model, incoming, outgoing, colours="sum")
         p = exact.probe_momenta(5, points)
         ref = exact.squared(p)
-        t_sum = per_point(exact, np.repeat(p, 100, axis=0))
+        t_sum = _us_per_point(exact, np.repeat(p, 100, axis=0), repeat)
         print(f"{label:<22} {'exact colour and helicity':<26} {t_sum:>9.1f} {0.0:>16.3f} {1.0:>17.2f}")
         for mode, opts in (("sampled colours", {"colours": "sample"}),
                            ("sampled colours, helicity", {"colours": "sample", "helicities": "sample"})):
             amp = tree.build(model, incoming, outgoing, **opts)
             est = amp.squared(np.repeat(p, draws, axis=0), np.random.default_rng(1)).reshape(points, draws)
             v = float(np.mean(est.var(axis=1) / ref ** 2))
-            t = per_point(amp, np.repeat(p, 100, axis=0))
+            t = _us_per_point(amp, np.repeat(p, 100, axis=0), repeat)
             print(f"{'':<22} {mode:<26} {t:>9.1f} {v:>16.3f} {t / t_sum * (1 + 2 * v):>17.2f}")
         sys.stdout.flush()
 

@@ -103,6 +103,16 @@ class _Config:
     weight: float
 
 
+def _mirror_half(configs) -> list | None:
+    """One configuration of each mirror pair (every helicity flipped), or None when the
+    configurations do not come in such pairs."""
+    kept = set(configs)
+    half = [h for h in configs if h < tuple(-x for x in h)]
+    if len(half) * 2 != len(kept) or any(tuple(-x for x in h) not in kept for h in half):
+        return None
+    return half
+
+
 class TreeAmplitude:
     """Squared amplitudes of `incoming -> outgoing` in a model file (see the module docstring).
 
@@ -220,31 +230,26 @@ class TreeAmplitude:
             top = max(csize.values()) if csize else 0.0
             self.colour_classes = [(c, float(classes[c])) for c in classes if top == 0.0 or csize[c] > 1e-24 * top]
             self._colour_basis(seed)
-            self._summed_parity(seed)
+            self._summed_parity(ext, moms, cache)
         else:
             self.colour_classes = []
 
-    def _summed_parity(self, seed: int) -> None:
+    def _summed_parity(self, ext, moms, cache) -> None:
         """The helicity configurations the exact sums evaluate: one of each mirror pair (every
-        helicity flipped) when the colour-summed |M|^2 of the two agree at probe points to 1e-10,
-        counted twice. With vector-like couplings and massless partons (QCD, QED) a flip conjugates
-        every amplitude up to one phase and the colour matrix is real, so they agree; chiral
-        couplings (the Z, the W) or masses break it, the probe sees that and all are kept."""
+        helicity flipped) when the colour-summed |M|^2 of the two agree at the set-up's probe
+        points to 1e-10, counted twice. With vector-like couplings and massless partons (QCD, QED) a
+        flip conjugates every amplitude up to one phase and the colour matrix is real, so they agree;
+        chiral couplings (the Z, the W) or masses break it, the probe sees that and all are kept."""
         self.summed_configs, self.summed_factor = list(self.helicity_configs), 1.0
-        kept = set(self.helicity_configs)
-        half = [h for h in self.helicity_configs if h < tuple(-x for x in h)]
-        if len(half) * 2 != len(kept) or any(tuple(-x for x in h) not in kept for h in half):
+        half = _mirror_half(self.helicity_configs)
+        if half is None:
             return
-        p = self.probe_momenta(seed + 2, 3)
-        ext, moms = self._externals(p), self._moms(p)
-        cache: dict = {}
 
         def summed(h):
             return self._colour_summed([self._amp(ext, moms, h, c, cache) for c in self.colour_basis])
 
         for h in half:
-            a, b = summed(h), summed(tuple(-x for x in h))
-            if not np.allclose(a, b, rtol=1e-10, atol=1e-300):
+            if not np.allclose(summed(h), summed(tuple(-x for x in h)), rtol=1e-10, atol=1e-300):
                 return
         self.summed_configs, self.summed_factor = half, 2.0
 
@@ -255,13 +260,8 @@ class TreeAmplitude:
         self.helicity_configs = [h for h, v in zip(hels, size) if v > 1e-24 * size.max()] if size.any() else hels
         # parity: flipping every helicity conjugates each colour-ordered amplitude up to one phase,
         # so |M|^2 is the same; one configuration of each pair is evaluated, counted twice
-        kept = set(self.helicity_configs)
-        self.parity_configs = [h for h in self.helicity_configs if h <= tuple(-x for x in h)]
-        if len(self.parity_configs) * 2 != len(self.helicity_configs) or \
-                any(tuple(-x for x in h) not in kept for h in self.parity_configs):
-            self.parity_configs, self.parity_factor = list(self.helicity_configs), 1.0
-        else:
-            self.parity_factor = 2.0
+        half = _mirror_half(self.helicity_configs)
+        self.parity_configs, self.parity_factor = (list(self.helicity_configs), 1.0) if half is None else (half, 2.0)
         from .ordered import GluonOrdered
 
         q = self.probe_momenta(seed + 1, 12)
